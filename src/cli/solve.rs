@@ -1,0 +1,42 @@
+//! `burnout solve`.
+
+use super::{Format, ProblemArgs, UnitsArg};
+use burnout::inputs::problem_from_inputs;
+use burnout::report;
+use burnout::Error;
+
+/// Arguments of `burnout solve`.
+#[derive(clap::Args, Debug)]
+pub struct Args {
+    #[command(flatten)]
+    problem: ProblemArgs,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = Format::Table)]
+    format: Format,
+    /// Units of the human table.
+    #[arg(long, value_enum, default_value_t = UnitsArg::Si)]
+    units: UnitsArg,
+    /// With --format csv: add the 15 sensitivity columns.
+    #[arg(long)]
+    sensitivities: bool,
+}
+
+/// Solves and prints; returns the exit code.
+pub fn run(args: Args) -> Result<i32, Error> {
+    let inputs = args.problem.inputs()?;
+    let problem = problem_from_inputs(&inputs)?;
+    let solved = burnout::solve(&problem)?;
+    let mut buf = Vec::new();
+    match args.format {
+        Format::Table => report::table::write(&mut buf, &solved, args.units.into()).map_err(io)?,
+        Format::Json => report::json::write(&mut buf, &solved).map_err(io)?,
+        Format::Csv => report::csv::write(&mut buf, &solved, args.sensitivities)
+            .map_err(|e| Error::Usage(format!("cannot write csv: {e}")))?,
+    }
+    super::emit(&buf)?;
+    Ok(0)
+}
+
+fn io(e: std::io::Error) -> Error {
+    Error::Usage(format!("cannot write output: {e}"))
+}

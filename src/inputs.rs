@@ -1,0 +1,281 @@
+//! Turning named text inputs (command-line flags, case-file keys, batch CSV
+//! columns) into a [`Problem`]. Pure: no I/O.
+//!
+//! Keys are the solve flags without their dashes: `body`, `mu`, `radius`,
+//! `burnout-alt`, `burnout-radius`, `periapsis-alt`, ..., `fpa`, `zenith`,
+//! `speed`, `min-periapsis-alt`.
+
+use crate::body::Body;
+use crate::error::Error;
+use crate::problem::Problem;
+use crate::target::{Target, TargetQuantity};
+use crate::units::{parse_si, Kind};
+use std::collections::BTreeMap;
+
+/// Named text inputs, keyed by flag name without dashes.
+pub type Inputs = BTreeMap<String, String>;
+
+/// Every target key: (key, flag, quantity, kind, measured as altitude).
+pub const TARGET_KEYS: &[(&str, &str, TargetQuantity, Kind, bool)] = &[
+    (
+        "periapsis-alt",
+        "--periapsis-alt",
+        TargetQuantity::PeriapsisRadius,
+        Kind::Length,
+        true,
+    ),
+    (
+        "periapsis-radius",
+        "--periapsis-radius",
+        TargetQuantity::PeriapsisRadius,
+        Kind::Length,
+        false,
+    ),
+    (
+        "apoapsis-alt",
+        "--apoapsis-alt",
+        TargetQuantity::ApoapsisRadius,
+        Kind::Length,
+        true,
+    ),
+    (
+        "apoapsis-radius",
+        "--apoapsis-radius",
+        TargetQuantity::ApoapsisRadius,
+        Kind::Length,
+        false,
+    ),
+    ("sma", "--sma", TargetQuantity::Sma, Kind::Length, false),
+    ("ecc", "--ecc", TargetQuantity::Ecc, Kind::Ratio, false),
+    (
+        "period",
+        "--period",
+        TargetQuantity::Period,
+        Kind::Time,
+        false,
+    ),
+    ("c3", "--c3", TargetQuantity::C3, Kind::C3, false),
+    (
+        "semi-latus-rectum",
+        "--semi-latus-rectum",
+        TargetQuantity::SemiLatusRectum,
+        Kind::Length,
+        false,
+    ),
+    (
+        "time-to-apoapsis",
+        "--time-to-apoapsis",
+        TargetQuantity::TimeToApoapsis,
+        Kind::Time,
+        false,
+    ),
+    (
+        "time-to-periapsis",
+        "--time-to-periapsis",
+        TargetQuantity::TimeToPeriapsis,
+        Kind::Time,
+        false,
+    ),
+    (
+        "angle-to-apoapsis",
+        "--angle-to-apoapsis",
+        TargetQuantity::AngleToApoapsis,
+        Kind::Angle,
+        false,
+    ),
+];
+
+/// Every key this module reads, with the kind of its value.
+pub const KEYS: &[(&str, Kind)] = &[
+    ("mu", Kind::Mu),
+    ("radius", Kind::Length),
+    ("burnout-alt", Kind::Length),
+    ("burnout-radius", Kind::Length),
+    ("fpa", Kind::Angle),
+    ("zenith", Kind::Angle),
+    ("speed", Kind::Speed),
+    ("min-periapsis-alt", Kind::Length),
+];
+
+/// Kind of the value of `key`, if it is a numeric input key.
+pub fn kind_of(key: &str) -> Option<Kind> {
+    KEYS.iter()
+        .find(|(k, _)| *k == key)
+        .map(|(_, kind)| *kind)
+        .or_else(|| TARGET_KEYS.iter().find(|t| t.0 == key).map(|t| t.3))
+}
+
+fn get<'a>(inputs: &'a Inputs, key: &str) -> Option<&'a str> {
+    inputs
+        .get(key)
+        .map(|s| s.as_str())
+        .filter(|s| !s.trim().is_empty())
+}
+
+fn num(inputs: &Inputs, key: &str, kind: Kind) -> Result<Option<f64>, Error> {
+    get(inputs, key)
+        .map(|text| parse_si(&format!("--{key}"), text, kind))
+        .transpose()
+}
+
+/// The body named by the inputs (`body`, or `mu` with `radius`).
+///
+/// # Errors
+/// Unknown body; `mu` without `radius` or beside `body`; bad values.
+pub fn body_from_inputs(inputs: &Inputs) -> Result<Body, Error> {
+    let mu = num(inputs, "mu", Kind::Mu)?;
+    let radius = num(inputs, "radius", Kind::Length)?;
+    match (get(inputs, "body"), mu, radius) {
+        (Some(_), Some(_), _) => Err(Error::Usage(
+            "--body and --mu both name the central body: give one (--mu goes with --radius)".into(),
+        )),
+        (_, Some(mu), Some(radius)) => Body::custom(mu, radius),
+        (_, Some(_), None) => Err(Error::Usage(
+            "--mu needs --radius (the body's surface radius)".into(),
+        )),
+        (Some(_), None, Some(_)) => Err(Error::Usage(
+            "--radius sets a custom body's surface and goes with --mu, not --body".into(),
+        )),
+        (None, None, Some(_)) => Err(Error::Usage(
+            "--radius needs --mu (the body's gravitational parameter)".into(),
+        )),
+        (Some(name), None, None) => Body::from_name(name),
+        (None, None, None) => Body::from_name("earth"),
+    }
+}
+
+/// Builds a [`Problem`] from named text inputs.
+///
+/// # Errors
+/// [`Error::InvalidValue`] for unparseable values (naming the flag and the
+/// text); [`Error::Usage`] for missing or conflicting inputs.
+pub fn problem_from_inputs(inputs: &Inputs) -> Result<Problem, Error> {
+    let body = body_from_inputs(inputs)?;
+    let burnout_radius_m = match (
+        num(inputs, "burnout-alt", Kind::Length)?,
+        num(inputs, "burnout-radius", Kind::Length)?,
+    ) {
+        (Some(alt), None) => body.radius_m + alt,
+        (None, Some(r)) => r,
+        (Some(_), Some(_)) => {
+            return Err(Error::Usage(
+                "--burnout-alt and --burnout-radius both give the burnout point: give one".into(),
+            ))
+        }
+        (None, None) => {
+            return Err(Error::Usage(
+                "missing burnout point: give --burnout-alt or --burnout-radius".into(),
+            ))
+        }
+    };
+    let mut targets = Vec::new();
+    for (key, flag, quantity, kind, is_alt) in TARGET_KEYS {
+        if let Some(v) = num(inputs, key, *kind)? {
+            let value = if *is_alt { body.radius_m + v } else { v };
+            targets.push(Target::new(*quantity, value, flag));
+        }
+    }
+    let flight_path_angle_rad = match (
+        num(inputs, "fpa", Kind::Angle)?,
+        num(inputs, "zenith", Kind::Angle)?,
+    ) {
+        (Some(_), Some(_)) => return Err(Error::Usage(
+            "--fpa and --zenith both give the burnout direction: give one (fpa = 90 deg - zenith)"
+                .into(),
+        )),
+        (Some(f), None) => Some(f),
+        (None, Some(z)) => {
+            if !(0.0..=std::f64::consts::PI).contains(&z) {
+                return Err(Error::OutOfRange {
+                    quantity: "zenith angle",
+                    value: z.to_degrees(),
+                    unit: "deg",
+                    expected: "between 0 and 180 deg from the local vertical".into(),
+                });
+            }
+            Some(std::f64::consts::FRAC_PI_2 - z)
+        }
+        (None, None) => None,
+    };
+    Ok(Problem {
+        body,
+        burnout_radius_m,
+        targets,
+        flight_path_angle_rad,
+        speed_m_s: num(inputs, "speed", Kind::Speed)?,
+        min_periapsis_alt_m: num(inputs, "min-periapsis-alt", Kind::Length)?,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    fn inputs(pairs: &[(&str, &str)]) -> Inputs {
+        pairs
+            .iter()
+            .map(|(k, v)| (k.to_string(), v.to_string()))
+            .collect()
+    }
+
+    #[test]
+    fn altitudes_become_radii_and_units_apply() {
+        let p = problem_from_inputs(&inputs(&[
+            ("burnout-alt", "100 nmi"),
+            ("periapsis-alt", "185km"),
+            ("apoapsis-alt", "35786"),
+        ]))
+        .unwrap();
+        assert_relative_eq!(p.burnout_radius_m, 6_378_137.0 + 185_200.0);
+        assert_relative_eq!(p.targets[1].value, 6_378_137.0 + 35_786_000.0);
+    }
+
+    #[test]
+    fn zenith_converts_to_flight_path_angle() {
+        let p = problem_from_inputs(&inputs(&[
+            ("burnout-alt", "200"),
+            ("zenith", "80deg"),
+            ("sma", "7000"),
+        ]))
+        .unwrap();
+        assert_relative_eq!(
+            p.flight_path_angle_rad.unwrap(),
+            10f64.to_radians(),
+            max_relative = 1e-14
+        );
+    }
+
+    #[test]
+    fn conflicts_and_missing_inputs_are_usage_errors() {
+        assert!(matches!(
+            problem_from_inputs(&inputs(&[("sma", "7000")])),
+            Err(Error::Usage(_))
+        ));
+        assert!(matches!(
+            problem_from_inputs(&inputs(&[("burnout-alt", "1"), ("burnout-radius", "7000")])),
+            Err(Error::Usage(_))
+        ));
+        assert!(matches!(
+            problem_from_inputs(&inputs(&[
+                ("burnout-alt", "1"),
+                ("body", "earth"),
+                ("mu", "1")
+            ])),
+            Err(Error::Usage(_))
+        ));
+        let e = problem_from_inputs(&inputs(&[("burnout-alt", "7km/s")])).unwrap_err();
+        assert!(e.to_string().contains("--burnout-alt"), "{e}");
+    }
+
+    #[test]
+    fn custom_body_from_mu_and_radius() {
+        let p = problem_from_inputs(&inputs(&[
+            ("mu", "398600.4418"),
+            ("radius", "6378.137"),
+            ("burnout-alt", "0"),
+        ]))
+        .unwrap();
+        assert_relative_eq!(p.body.mu_m3_s2, 3.986004418e14, max_relative = 1e-15);
+    }
+}

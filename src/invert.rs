@@ -1,0 +1,562 @@
+//! Closed-form inversions: from a target orbit (or one target quantity and
+//! one burnout quantity) and the burnout radius to the burnout speed and
+//! flight-path angle.
+//!
+//! Formulas (Bate, Mueller & White, *Fundamentals of Astrodynamics*, 1971,
+//! ch. 1-2; Curtis, *Orbital Mechanics for Engineering Students*, ch. 2):
+//! - horizontal speed v_t = h / r with h = sqrt(mu p);
+//! - radial speed from vis-viva and h, written in well-conditioned factors:
+//!   ellipse v_r^2 = 2 mu (r - rp)(ra - r) / ((rp + ra) r^2),
+//!   open orbit v_r^2 = mu (r - rp)(rp (1 + e) + r (e - 1)) / (rp r^2);
+//! - flight-path angle atan2(v_r, v_t), never an `acos`;
+//! - true anomaly atan2(e sin nu, e cos nu) with e sin nu = v_r h / mu and,
+//!   for ellipses, e cos nu = (rp (ra - r) - ra (r - rp)) / (r (rp + ra)).
+
+use crate::error::{g, positive, Error};
+use crate::orbit::{check_fpa, forward, Conic};
+use crate::target::{conic_from_pair, Target, TargetQuantity};
+use std::f64::consts::PI;
+
+/// Relative tolerance within which a burnout radius counts as at an apsis.
+pub const APSIS_TOLERANCE: f64 = 1e-12;
+
+/// Which side of the orbit burnout is on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Branch {
+    /// Flight-path angle >= 0, true anomaly in [0, 180] deg (climbing).
+    Ascending,
+    /// Flight-path angle <= 0, true anomaly in [180, 360) deg (descending).
+    Descending,
+}
+
+impl Branch {
+    /// Lower-case name used in machine output.
+    pub fn name(self) -> &'static str {
+        match self {
+            Branch::Ascending => "ascending",
+            Branch::Descending => "descending",
+        }
+    }
+}
+
+/// A burnout state on a target orbit.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BurnoutState {
+    /// Which branch.
+    pub branch: Branch,
+    /// Burnout radius, m.
+    pub radius_m: f64,
+    /// Inertial burnout speed, m/s.
+    pub speed_m_s: f64,
+    /// Flight-path angle above the local horizontal, rad.
+    pub flight_path_angle_rad: f64,
+    /// True anomaly at burnout, rad in [0, 2 pi).
+    pub true_anomaly_rad: f64,
+    /// The orbit this state is on.
+    pub conic: Conic,
+}
+
+fn branch_of(fpa_rad: f64) -> Branch {
+    if fpa_rad < 0.0 {
+        Branch::Descending
+    } else {
+        Branch::Ascending
+    }
+}
+
+/// Both burnout states (ascending and descending) at radius `radius_m` on `conic`.
+///
+/// At an apsis (radius equal to it within [`APSIS_TOLERANCE`]) there is one
+/// state, labelled ascending, with flight-path angle exactly 0.
+///
+/// # Errors
+/// [`Error::BelowPeriapsis`] / [`Error::AboveApoapsis`] when the orbit never
+/// passes through `radius_m`.
+pub fn burnout_for_conic(
+    mu_m3_s2: f64,
+    conic: &Conic,
+    radius_m: f64,
+) -> Result<Vec<BurnoutState>, Error> {
+    positive("burnout radius", radius_m, "m")?;
+    let rp = conic.periapsis_radius_m();
+    let r = radius_m;
+    if r < rp * (1.0 - APSIS_TOLERANCE) {
+        return Err(Error::BelowPeriapsis {
+            burnout_radius_m: r,
+            periapsis_radius_m: rp,
+        });
+    }
+    if let Some(ra) = conic.apoapsis_radius_m() {
+        if r > ra * (1.0 + APSIS_TOLERANCE) {
+            return Err(Error::AboveApoapsis {
+                burnout_radius_m: r,
+                apoapsis_radius_m: ra,
+            });
+        }
+    }
+    let p = conic.semi_latus_rectum_m();
+    let h = (mu_m3_s2 * p).sqrt();
+    let vt = h / r;
+    let at_periapsis = (r - rp).abs() <= APSIS_TOLERANCE * rp;
+    let at_apoapsis = conic
+        .apoapsis_radius_m()
+        .map(|ra| (r - ra).abs() <= APSIS_TOLERANCE * ra)
+        .unwrap_or(false);
+    if at_periapsis || at_apoapsis {
+        // Horizontal burnout; vis-viva gives the speed.
+        let nu = if at_periapsis { 0.0 } else { PI };
+        let speed = vt;
+        return Ok(vec![BurnoutState {
+            branch: Branch::Ascending,
+            radius_m: r,
+            speed_m_s: speed,
+            flight_path_angle_rad: 0.0,
+            true_anomaly_rad: nu,
+            conic: *conic,
+        }]);
+    }
+    let (vr, ecos, esin) = match conic.apoapsis_radius_m() {
+        Some(ra) => {
+            let s = rp + ra;
+            let prod = (r - rp) * (ra - r);
+            let vr = (2.0 * mu_m3_s2 * prod / s).sqrt() / r;
+            let ecos = (rp * (ra - r) - ra * (r - rp)) / (r * s);
+            let esin = 2.0 * (prod * rp * ra).sqrt() / (r * s);
+            (vr, ecos, esin)
+        }
+        None => {
+            let e = conic.ecc();
+            let k = rp * (1.0 + e) + r * (e - 1.0);
+            let vr = (mu_m3_s2 * (r - rp) * k / rp).sqrt() / r;
+            let ecos = (p - r) / r;
+            let esin = vr * h / mu_m3_s2;
+            (vr, ecos, esin)
+        }
+    };
+    let speed = vr.hypot(vt);
+    let fpa = vr.atan2(vt);
+    let nu = esin.atan2(ecos);
+    Ok(vec![
+        BurnoutState {
+            branch: Branch::Ascending,
+            radius_m: r,
+            speed_m_s: speed,
+            flight_path_angle_rad: fpa,
+            true_anomaly_rad: nu,
+            conic: *conic,
+        },
+        BurnoutState {
+            branch: Branch::Descending,
+            radius_m: r,
+            speed_m_s: speed,
+            flight_path_angle_rad: -fpa,
+            true_anomaly_rad: 2.0 * PI - nu,
+            conic: *conic,
+        },
+    ])
+}
+
+/// The state reached by the forward map, labelled by the sign of the angle.
+///
+/// # Errors
+/// As [`forward`].
+pub fn forward_state(
+    mu_m3_s2: f64,
+    radius_m: f64,
+    speed_m_s: f64,
+    flight_path_angle_rad: f64,
+) -> Result<BurnoutState, Error> {
+    let (conic, nu) = forward(mu_m3_s2, radius_m, speed_m_s, flight_path_angle_rad)?;
+    Ok(BurnoutState {
+        branch: branch_of(flight_path_angle_rad),
+        radius_m,
+        speed_m_s,
+        flight_path_angle_rad,
+        true_anomaly_rad: nu,
+        conic,
+    })
+}
+
+/// The burnout speed(s) that reach one target quantity at a given
+/// flight-path angle.
+///
+/// - apsis radius R (periapsis or apoapsis), from energy and angular momentum
+///   conservation between burnout and the apsis:
+///   v^2 = 2 mu R (R - r) / (r (R - r cos g)(R + r cos g)), with
+///   R - r cos g = (R - r) + 2 r sin^2(g/2) to keep digits;
+/// - semi-major axis, period, C3, specific energy: vis-viva;
+/// - eccentricity: with Q = r v^2/mu, e^2 = 1 - Q (2 - Q) cos^2 g, so
+///   Q = 1 +- sqrt((e - sin|g|)(e + sin|g|)) / cos g (two speeds for an ellipse);
+/// - semi-latus rectum: Q = p / (r cos^2 g).
+///
+/// # Errors
+/// [`Error::Infeasible`] when no speed reaches the target at this angle;
+/// [`Error::Usage`] when every speed in a range does (underdetermined).
+pub fn speed_for_target(
+    mu_m3_s2: f64,
+    radius_m: f64,
+    flight_path_angle_rad: f64,
+    target: &Target,
+) -> Result<Vec<BurnoutState>, Error> {
+    use TargetQuantity as Q;
+    positive("burnout radius", radius_m, "m")?;
+    check_fpa(flight_path_angle_rad)?;
+    target.validate()?;
+    let r = radius_m;
+    let gamma = flight_path_angle_rad;
+    let (s, c) = gamma.sin_cos();
+    let c = c.max(0.0);
+    let gdeg = g(gamma.to_degrees());
+    let mu = mu_m3_s2;
+    let x = target.value;
+    let speeds: Vec<f64> = match target.quantity {
+        Q::PeriapsisRadius | Q::ApoapsisRadius => {
+            let is_apo = target.quantity == Q::ApoapsisRadius;
+            let same = (x - r).abs() <= APSIS_TOLERANCE * r;
+            if same && gamma == 0.0 {
+                let vc = (mu / r).sqrt();
+                return Err(Error::Usage(format!(
+                    "{} {} m equals the burnout radius with a horizontal flight-path angle: every speed {} circular speed {} m/s reaches it; give a second target quantity",
+                    target.flag,
+                    g(x),
+                    if is_apo { "up to" } else { "from" },
+                    g(vc)
+                )));
+            }
+            if is_apo && x <= r {
+                return Err(Error::Infeasible(format!(
+                    "target apoapsis radius {} m is not above the burnout radius {} m",
+                    g(x),
+                    g(r)
+                )));
+            }
+            let half = (0.5 * gamma).sin();
+            let d_minus = (x - r) + 2.0 * r * half * half; // R - r cos g
+            if !is_apo && (x >= r || d_minus >= 0.0) {
+                return Err(Error::Infeasible(format!(
+                    "target periapsis radius {} m cannot be reached from burnout radius {} m at flight-path angle {} deg: expected below r cos(fpa) = {} m",
+                    g(x),
+                    g(r),
+                    gdeg,
+                    g(r * c)
+                )));
+            }
+            let v2 = 2.0 * mu * x * (x - r) / (r * d_minus * (x + r * c));
+            vec![v2.sqrt()]
+        }
+        Q::Sma | Q::Period | Q::C3 | Q::SpecificEnergy => {
+            let inv_a = match target.quantity {
+                Q::Sma => 1.0 / x,
+                Q::Period => {
+                    let n = 2.0 * PI / x;
+                    (n * n / mu).cbrt()
+                }
+                Q::C3 => -x / mu,
+                _ => -2.0 * x / mu,
+            };
+            let v2 = mu * (2.0 / r - inv_a);
+            if v2 <= 0.0 {
+                return Err(Error::Infeasible(format!(
+                    "{} {} {} needs a semi-major axis of {} m, which an orbit through burnout radius {} m cannot have (expected a > r/2 = {} m or a negative, open orbit)",
+                    target.flag,
+                    g(x),
+                    target.quantity.unit(),
+                    g(1.0 / inv_a),
+                    g(r),
+                    g(r / 2.0)
+                )));
+            }
+            vec![v2.sqrt()]
+        }
+        Q::Ecc => {
+            let sa = s.abs();
+            if c == 0.0 {
+                return Err(Error::Infeasible(format!(
+                    "flight-path angle {gdeg} deg is vertical: a radial trajectory has no eccentricity to target"
+                )));
+            }
+            if x < sa {
+                return Err(Error::Infeasible(format!(
+                    "eccentricity {} is below |sin(fpa)| = {} at flight-path angle {} deg: no orbit has it there",
+                    g(x),
+                    g(sa),
+                    gdeg
+                )));
+            }
+            let d = ((x - sa) * (x + sa)).sqrt() / c;
+            let mut qs = vec![1.0 + d];
+            let qm = 1.0 - d;
+            if qm > 0.0 && d > 0.0 {
+                qs.insert(0, qm);
+            }
+            qs.into_iter().map(|q| (q * mu / r).sqrt()).collect()
+        }
+        Q::SemiLatusRectum => {
+            if c == 0.0 {
+                return Err(Error::Infeasible(format!(
+                    "flight-path angle {gdeg} deg is vertical: a radial trajectory has zero semi-latus rectum"
+                )));
+            }
+            let q = x / (r * c * c);
+            vec![(q * mu / r).sqrt()]
+        }
+        Q::TimeToApoapsis | Q::TimeToPeriapsis | Q::AngleToApoapsis => {
+            return Err(Error::Usage(format!(
+                "{} has no closed-form inversion",
+                target.flag
+            )))
+        }
+    };
+    let mut out = Vec::with_capacity(speeds.len());
+    for v in speeds {
+        if !(v.is_finite() && v > 0.0) {
+            return Err(Error::Infeasible(format!(
+                "no positive burnout speed reaches {} {} {} at flight-path angle {} deg from radius {} m",
+                target.flag,
+                g(x),
+                target.quantity.unit(),
+                gdeg,
+                g(r)
+            )));
+        }
+        let mut st = forward_state(mu, r, v, gamma)?;
+        // Keep the targeted apsis exact where the target named it.
+        st.conic = match (target.quantity, st.conic.apoapsis_radius_m()) {
+            (Q::ApoapsisRadius, Some(_)) => {
+                Conic::from_apsides(st.conic.periapsis_radius_m().min(x), x).unwrap_or(st.conic)
+            }
+            (Q::PeriapsisRadius, Some(ra)) => Conic::from_apsides(x, ra.max(x)).unwrap_or(st.conic),
+            (Q::PeriapsisRadius, None) => {
+                Conic::from_periapsis_ecc(x, st.conic.ecc()).unwrap_or(st.conic)
+            }
+            _ => st.conic,
+        };
+        out.push(st);
+    }
+    Ok(out)
+}
+
+/// The flight-path angles (both branches) that reach one shape target at a
+/// given burnout speed: the speed fixes C3 = v^2 - 2 mu / r, and the pair
+/// (target, C3) fixes the conic.
+///
+/// # Errors
+/// [`Error::Usage`] when the target also fixes only the energy (sma, period,
+/// C3); [`Error::Infeasible`] when a closed target meets a speed at or above
+/// escape, or the orbit does not pass through the burnout radius.
+pub fn fpa_for_speed(
+    mu_m3_s2: f64,
+    radius_m: f64,
+    speed_m_s: f64,
+    target: &Target,
+) -> Result<Vec<BurnoutState>, Error> {
+    use TargetQuantity as Q;
+    positive("burnout radius", radius_m, "m")?;
+    positive("burnout speed", speed_m_s, "m/s")?;
+    target.validate()?;
+    let r = radius_m;
+    let v = speed_m_s;
+    let v_esc = (2.0 * mu_m3_s2 / r).sqrt();
+    match target.quantity {
+        Q::Sma | Q::Period | Q::C3 | Q::SpecificEnergy => {
+            return Err(Error::Usage(format!(
+                "--speed and {} both fix the orbit's energy: pair --speed with a periapsis, apoapsis, eccentricity or semi-latus rectum",
+                target.flag
+            )))
+        }
+        Q::ApoapsisRadius if v >= v_esc => {
+            return Err(Error::Infeasible(format!(
+                "burnout speed {} m/s is at or above escape speed {} m/s at burnout radius {} m, but {} needs a closed orbit",
+                g(v),
+                g(v_esc),
+                g(r),
+                target.flag
+            )))
+        }
+        Q::Ecc if target.value < 1.0 && v >= v_esc => {
+            return Err(Error::Infeasible(format!(
+                "burnout speed {} m/s is at or above escape speed {} m/s at burnout radius {} m, but eccentricity {} is a closed orbit",
+                g(v),
+                g(v_esc),
+                g(r),
+                g(target.value)
+            )))
+        }
+        _ => {}
+    }
+    let c3 = (v - v_esc) * (v + v_esc);
+    let energy = Target::new(Q::C3, c3, "--speed");
+    let conic = conic_from_pair(mu_m3_s2, target, &energy)?;
+    let mut states = burnout_for_conic(mu_m3_s2, &conic, r)?;
+    for st in &mut states {
+        st.speed_m_s = v;
+    }
+    Ok(states)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    const MU: f64 = crate::body::EARTH_MU_M3_S2;
+    const RE: f64 = crate::body::EARTH_RADIUS_M;
+
+    #[test]
+    fn perigee_burnout_into_transfer_orbit_matches_vis_viva() {
+        // 185 km x 35786 km transfer orbit, burnout at perigee: v = sqrt(mu (2/r - 1/a)).
+        let rp = RE + 185e3;
+        let ra = RE + 35_786e3;
+        let c = Conic::from_apsides(rp, ra).unwrap();
+        let s = burnout_for_conic(MU, &c, rp).unwrap();
+        assert_eq!(s.len(), 1);
+        let a = 0.5 * (rp + ra);
+        assert_relative_eq!(
+            s[0].speed_m_s,
+            (MU * (2.0 / rp - 1.0 / a)).sqrt(),
+            max_relative = 1e-14
+        );
+        assert_eq!(s[0].flight_path_angle_rad, 0.0);
+        assert_eq!(s[0].branch, Branch::Ascending);
+    }
+
+    #[test]
+    fn circular_target_gives_zero_flight_path_angle() {
+        let r = RE + 500e3;
+        let c = Conic::from_apsides(r, r).unwrap();
+        let s = burnout_for_conic(MU, &c, r).unwrap();
+        assert_eq!(s.len(), 1);
+        assert_relative_eq!(s[0].speed_m_s, (MU / r).sqrt(), max_relative = 1e-15);
+    }
+
+    #[test]
+    fn descending_branch_mirrors_ascending() {
+        let c = Conic::from_apsides(RE + 200e3, RE + 2000e3).unwrap();
+        let s = burnout_for_conic(MU, &c, RE + 800e3).unwrap();
+        assert_eq!(s.len(), 2);
+        assert_eq!(s[0].speed_m_s, s[1].speed_m_s);
+        assert_eq!(s[0].flight_path_angle_rad, -s[1].flight_path_angle_rad);
+        assert_relative_eq!(
+            s[0].true_anomaly_rad + s[1].true_anomaly_rad,
+            2.0 * PI,
+            max_relative = 1e-15
+        );
+        assert!(s[0].true_anomaly_rad > 0.0 && s[0].true_anomaly_rad < PI);
+    }
+
+    #[test]
+    fn inverse_then_forward_recovers_apsides() {
+        let rp = RE + 300e3;
+        let ra = RE + 5000e3;
+        let c = Conic::from_apsides(rp, ra).unwrap();
+        for st in burnout_for_conic(MU, &c, RE + 1000e3).unwrap() {
+            let (back, nu) =
+                forward(MU, st.radius_m, st.speed_m_s, st.flight_path_angle_rad).unwrap();
+            assert_relative_eq!(back.periapsis_radius_m(), rp, max_relative = 1e-13);
+            assert_relative_eq!(back.apoapsis_radius_m().unwrap(), ra, max_relative = 1e-13);
+            assert_relative_eq!(nu, st.true_anomaly_rad, max_relative = 1e-12);
+        }
+    }
+
+    #[test]
+    fn hyperbolic_burnout_recovers_c3() {
+        let c = Conic::from_periapsis_ecc(RE + 200e3, 1.3).unwrap();
+        for st in burnout_for_conic(MU, &c, RE + 400e3).unwrap() {
+            let (back, _) =
+                forward(MU, st.radius_m, st.speed_m_s, st.flight_path_angle_rad).unwrap();
+            assert_relative_eq!(back.ecc(), 1.3, max_relative = 1e-13);
+            assert_relative_eq!(back.periapsis_radius_m(), RE + 200e3, max_relative = 1e-13);
+        }
+    }
+
+    #[test]
+    fn outside_the_apsides_is_rejected() {
+        let c = Conic::from_apsides(RE + 300e3, RE + 500e3).unwrap();
+        assert!(matches!(
+            burnout_for_conic(MU, &c, RE + 200e3),
+            Err(Error::BelowPeriapsis { .. })
+        ));
+        assert!(matches!(
+            burnout_for_conic(MU, &c, RE + 600e3),
+            Err(Error::AboveApoapsis { .. })
+        ));
+    }
+
+    #[test]
+    fn speed_for_apoapsis_at_angle_reaches_that_apoapsis() {
+        let r = RE + 100e3;
+        let ra = RE + 400e3;
+        for deg in [0.0, 5.0, 45.0, 89.0, -20.0] {
+            let t = Target::new(TargetQuantity::ApoapsisRadius, ra, "--apoapsis-radius");
+            let s = speed_for_target(MU, r, f64::to_radians(deg), &t).unwrap();
+            let (back, _) = forward(MU, r, s[0].speed_m_s, f64::to_radians(deg)).unwrap();
+            assert_relative_eq!(back.apoapsis_radius_m().unwrap(), ra, max_relative = 1e-12);
+        }
+    }
+
+    #[test]
+    fn vertical_shot_to_an_apoapsis_matches_energy() {
+        // Straight up to height R: v^2 = 2 mu (1/r - 1/R).
+        let r = RE;
+        let ra = RE + 100e3;
+        let t = Target::new(TargetQuantity::ApoapsisRadius, ra, "--apoapsis-radius");
+        let s = speed_for_target(MU, r, PI / 2.0, &t).unwrap();
+        assert_relative_eq!(
+            s[0].speed_m_s,
+            (2.0 * MU * (1.0 / r - 1.0 / ra)).sqrt(),
+            max_relative = 1e-13
+        );
+    }
+
+    #[test]
+    fn ecc_at_angle_gives_two_speeds_for_an_ellipse() {
+        let r = RE + 400e3;
+        let t = Target::new(TargetQuantity::Ecc, 0.1, "--ecc");
+        let s = speed_for_target(MU, r, 2f64.to_radians(), &t).unwrap();
+        assert_eq!(s.len(), 2);
+        for st in &s {
+            assert_relative_eq!(st.conic.ecc(), 0.1, max_relative = 1e-12);
+        }
+        assert!(s[0].speed_m_s < s[1].speed_m_s);
+    }
+
+    #[test]
+    fn periapsis_out_of_reach_at_steep_angle_is_infeasible() {
+        let r = RE + 400e3;
+        let t = Target::new(
+            TargetQuantity::PeriapsisRadius,
+            r * 0.999,
+            "--periapsis-radius",
+        );
+        assert!(matches!(
+            speed_for_target(MU, r, 10f64.to_radians(), &t),
+            Err(Error::Infeasible(_))
+        ));
+    }
+
+    #[test]
+    fn speed_with_apoapsis_gives_both_angles() {
+        let r = RE + 200e3;
+        let ra = RE + 1000e3;
+        let t = Target::new(TargetQuantity::ApoapsisRadius, ra, "--apoapsis-radius");
+        let v = 7900.0;
+        let s = fpa_for_speed(MU, r, v, &t).unwrap();
+        assert_eq!(s.len(), 2);
+        for st in s {
+            let (back, _) = forward(MU, r, v, st.flight_path_angle_rad).unwrap();
+            assert_relative_eq!(back.apoapsis_radius_m().unwrap(), ra, max_relative = 1e-12);
+        }
+    }
+
+    #[test]
+    fn escape_speed_with_closed_target_is_infeasible() {
+        let r = RE + 200e3;
+        let t = Target::new(
+            TargetQuantity::ApoapsisRadius,
+            RE + 1000e3,
+            "--apoapsis-radius",
+        );
+        let e = fpa_for_speed(MU, r, 11_500.0, &t).unwrap_err().to_string();
+        assert!(e.contains("escape speed"), "{e}");
+    }
+}

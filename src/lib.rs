@@ -1,0 +1,42 @@
+//! # burnout
+//!
+//! Inverse burnout targeting: for a target orbit and a burnout (engine
+//! cutoff) radius, the burnout speed and flight-path angle that reach it,
+//! both branches, with analytic sensitivities and feasibility checks.
+//!
+//! ```
+//! use burnout::body::Body;
+//! use burnout::orbit::Conic;
+//! use burnout::invert::burnout_for_conic;
+//!
+//! let earth = Body::from_name("earth").unwrap();
+//! let rp = earth.radius_m + 185e3;
+//! let ra = earth.radius_m + 35_786e3;
+//! let transfer = Conic::from_apsides(rp, ra).unwrap();
+//! let states = burnout_for_conic(earth.mu_m3_s2, &transfer, rp).unwrap();
+//! assert_eq!(states.len(), 1); // burnout at periapsis: one horizontal state
+//! assert!((states[0].speed_m_s - 10_239.0).abs() < 1.0);
+//! ```
+//!
+//! The core works in SI units and radians; degrees and user units appear only
+//! at the edges ([`units`], [`report`]).
+#![warn(missing_docs)]
+#![deny(clippy::float_cmp)]
+
+pub mod body;
+pub mod case;
+pub mod error;
+pub mod feasibility;
+pub mod inputs;
+pub mod invert;
+pub mod kepler;
+pub mod numeric;
+pub mod orbit;
+pub mod problem;
+pub mod report;
+pub mod sensitivity;
+pub mod target;
+pub mod units;
+
+pub use error::{Error, ErrorClass};
+pub use problem::{solve, Problem, Solved};

@@ -1,0 +1,311 @@
+//! A whole targeting problem and its solution: the one entry point that
+//! `solve`, `scan` and `batch` share.
+
+use crate::body::Body;
+use crate::error::{g, positive, Error};
+use crate::feasibility::{check_state, Warning};
+use crate::invert::{
+    burnout_for_conic, forward_state, fpa_for_speed, speed_for_target, BurnoutState,
+};
+use crate::sensitivity::{partials, Sensitivity};
+use crate::target::{conic_from_pair, Target, TargetQuantity};
+
+/// A targeting problem in SI units.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Problem {
+    /// The central body.
+    pub body: Body,
+    /// Burnout radius from the body's centre, m.
+    pub burnout_radius_m: f64,
+    /// Target quantities (radii measured from the centre).
+    pub targets: Vec<Target>,
+    /// Fixed flight-path angle at burnout, rad, if given.
+    pub flight_path_angle_rad: Option<f64>,
+    /// Fixed burnout speed, m/s, if given.
+    pub speed_m_s: Option<f64>,
+    /// Lowest periapsis altitude treated as safe, m; `None` uses the body's default.
+    pub min_periapsis_alt_m: Option<f64>,
+}
+
+/// One solution: a burnout state with its sensitivities and warnings.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Solution {
+    /// The burnout state and the orbit it reaches.
+    pub state: BurnoutState,
+    /// Partials of the orbit with respect to the burnout state.
+    pub sensitivity: Sensitivity,
+    /// Warnings about this solution.
+    pub warnings: Vec<Warning>,
+}
+
+/// How a problem was answered.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SolverReport {
+    /// `closed-form`, or the numerical method used.
+    pub method: String,
+    /// Iterations taken (0 for closed form).
+    pub iterations: u64,
+    /// Why the solver stopped.
+    pub termination: String,
+    /// Achieved minus targeted value of each target, in SI (key, value), for
+    /// the first solution.
+    pub residuals: Vec<(String, f64)>,
+}
+
+/// The answer to a [`Problem`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct Solved {
+    /// The body.
+    pub body: Body,
+    /// Burnout radius, m.
+    pub burnout_radius_m: f64,
+    /// Every solution found, ascending branch first.
+    pub solutions: Vec<Solution>,
+    /// How it was solved.
+    pub solver: SolverReport,
+}
+
+impl Solved {
+    /// All warnings of all solutions, in order, without repeats.
+    pub fn warnings(&self) -> Vec<String> {
+        let mut out: Vec<String> = Vec::new();
+        for s in &self.solutions {
+            for w in &s.warnings {
+                let t = w.to_string();
+                if !out.contains(&t) {
+                    out.push(t);
+                }
+            }
+        }
+        out
+    }
+}
+
+/// Value of a target quantity achieved by a state, SI.
+pub fn achieved(mu_m3_s2: f64, state: &BurnoutState, q: TargetQuantity) -> Option<f64> {
+    let c = &state.conic;
+    match q {
+        TargetQuantity::PeriapsisRadius => Some(c.periapsis_radius_m()),
+        TargetQuantity::ApoapsisRadius => c.apoapsis_radius_m(),
+        TargetQuantity::Sma => c.sma_m(),
+        TargetQuantity::Ecc => Some(c.ecc()),
+        TargetQuantity::Period => c.period_s(mu_m3_s2),
+        TargetQuantity::C3 => Some(c.c3_m2_s2(mu_m3_s2)),
+        TargetQuantity::SemiLatusRectum => Some(c.semi_latus_rectum_m()),
+        TargetQuantity::SpecificEnergy => Some(c.specific_energy_j_kg(mu_m3_s2)),
+        TargetQuantity::TimeToApoapsis => {
+            crate::kepler::time_to_apoapsis_s(mu_m3_s2, c, state.true_anomaly_rad)
+        }
+        TargetQuantity::TimeToPeriapsis => {
+            crate::kepler::time_to_periapsis_s(mu_m3_s2, c, state.true_anomaly_rad)
+        }
+        TargetQuantity::AngleToApoapsis => c.apoapsis_radius_m().map(|_| {
+            (std::f64::consts::PI - state.true_anomaly_rad).rem_euclid(2.0 * std::f64::consts::PI)
+        }),
+    }
+}
+
+/// Solves a targeting problem.
+///
+/// Closed forms answer: two orbit-element targets; one target with a fixed
+/// flight-path angle or speed; speed and angle with no target (the forward
+/// problem). Any other combination goes to the numerical solver.
+///
+/// # Errors
+/// [`Error::BelowSurface`] for a burnout radius under the surface; the errors
+/// of the inversions; [`Error::Usage`] for an under-specified problem.
+pub fn solve(problem: &Problem) -> Result<Solved, Error> {
+    let body = &problem.body;
+    let mu = body.mu_m3_s2;
+    let r = positive("burnout radius", problem.burnout_radius_m, "m")?;
+    if r < body.radius_m {
+        return Err(Error::BelowSurface {
+            burnout_radius_m: r,
+            surface_radius_m: body.radius_m,
+        });
+    }
+    for t in &problem.targets {
+        t.validate()?;
+    }
+    if let Some(v) = problem.speed_m_s {
+        positive("burnout speed", v, "m/s")?;
+    }
+    if let Some(fpa) = problem.flight_path_angle_rad {
+        crate::orbit::check_fpa(fpa)?;
+    }
+    let elements: Vec<&Target> = problem
+        .targets
+        .iter()
+        .filter(|t| t.quantity.is_orbit_element())
+        .collect();
+    let all_elements = elements.len() == problem.targets.len();
+    let n = problem.targets.len();
+    let states: Vec<BurnoutState> = match (n, problem.flight_path_angle_rad, problem.speed_m_s) {
+        (0, Some(fpa), Some(v)) => vec![forward_state(mu, r, v, fpa)?],
+        (2, None, None) if all_elements => {
+            let conic = conic_from_pair(mu, elements[0], elements[1])?;
+            burnout_for_conic(mu, &conic, r)?
+        }
+        (1, Some(fpa), None) if all_elements => speed_for_target(mu, r, fpa, elements[0])?,
+        (1, None, Some(v)) if all_elements => fpa_for_speed(mu, r, v, elements[0])?,
+        (0, _, _) => {
+            return Err(Error::Usage(
+                "nothing to target: give two target quantities (e.g. --periapsis-alt and --apoapsis-alt), one with --fpa or --speed, or --speed and --fpa for the orbit they reach".into(),
+            ))
+        }
+        (1, None, None) => {
+            return Err(Error::Usage(format!(
+                "{} alone leaves burnout speed and flight-path angle both free: add a second target quantity, or --fpa or --speed",
+                problem.targets[0].flag
+            )))
+        }
+        _ => return crate::numeric::solve_numeric(problem),
+    };
+    Ok(finish(problem, states, closed_form_report(problem, None)))
+}
+
+fn closed_form_report(problem: &Problem, first: Option<&BurnoutState>) -> SolverReport {
+    let residuals = first
+        .map(|st| {
+            problem
+                .targets
+                .iter()
+                .filter_map(|t| {
+                    achieved(problem.body.mu_m3_s2, st, t.quantity)
+                        .map(|a| (t.quantity.key().to_string(), a - t.value))
+                })
+                .collect()
+        })
+        .unwrap_or_default();
+    SolverReport {
+        method: "closed-form".into(),
+        iterations: 0,
+        termination: "exact".into(),
+        residuals,
+    }
+}
+
+/// Attaches sensitivities and warnings, orders ascending first, and fills the
+/// closed-form residuals.
+pub(crate) fn finish(
+    problem: &Problem,
+    mut states: Vec<BurnoutState>,
+    mut report: SolverReport,
+) -> Solved {
+    let body = &problem.body;
+    let min_alt = problem
+        .min_periapsis_alt_m
+        .or(body.min_safe_periapsis_alt_m);
+    states.sort_by(|a, b| {
+        (a.branch as u8)
+            .cmp(&(b.branch as u8))
+            .then(a.speed_m_s.total_cmp(&b.speed_m_s))
+            .then(a.radius_m.total_cmp(&b.radius_m))
+    });
+    if report.method == "closed-form" {
+        report = closed_form_report(problem, states.first());
+    }
+    let solutions = states
+        .into_iter()
+        .map(|state| Solution {
+            sensitivity: partials(
+                body.mu_m3_s2,
+                state.radius_m,
+                state.speed_m_s,
+                state.flight_path_angle_rad,
+            ),
+            warnings: check_state(body, &state, min_alt),
+            state,
+        })
+        .collect();
+    Solved {
+        body: body.clone(),
+        burnout_radius_m: problem.burnout_radius_m,
+        solutions,
+        solver: report,
+    }
+}
+
+/// Describes a radius as an altitude above `body` for messages.
+pub fn describe_alt(body: &Body, radius_m: f64) -> String {
+    format!("{} km altitude", g((radius_m - body.radius_m) / 1e3))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+    use TargetQuantity as Q;
+
+    fn earth_problem(alt_m: f64, targets: Vec<Target>) -> Problem {
+        let body = Body::from_name("earth").unwrap();
+        Problem {
+            burnout_radius_m: body.radius_m + alt_m,
+            body,
+            targets,
+            flight_path_angle_rad: None,
+            speed_m_s: None,
+            min_periapsis_alt_m: None,
+        }
+    }
+
+    #[test]
+    fn apsides_pair_solves_both_branches_with_zero_residuals() {
+        let re = crate::body::EARTH_RADIUS_M;
+        let p = earth_problem(
+            400e3,
+            vec![
+                Target::new(Q::PeriapsisRadius, re + 200e3, "--periapsis-alt"),
+                Target::new(Q::ApoapsisRadius, re + 35_786e3, "--apoapsis-alt"),
+            ],
+        );
+        let s = solve(&p).unwrap();
+        assert_eq!(s.solutions.len(), 2);
+        assert_eq!(s.solver.method, "closed-form");
+        for (_, res) in &s.solver.residuals {
+            assert!(res.abs() < 1e-6, "{res}");
+        }
+    }
+
+    #[test]
+    fn burnout_under_surface_is_an_error() {
+        let p = earth_problem(-1e3, vec![]);
+        assert!(matches!(solve(&p), Err(Error::BelowSurface { .. })));
+    }
+
+    #[test]
+    fn single_target_alone_is_a_usage_error() {
+        let p = earth_problem(200e3, vec![Target::new(Q::Sma, 7e6, "--sma")]);
+        assert!(matches!(solve(&p), Err(Error::Usage(_))));
+    }
+
+    #[test]
+    fn forward_problem_reports_orbit() {
+        let mut p = earth_problem(200e3, vec![]);
+        let v = (p.body.mu_m3_s2 / p.burnout_radius_m).sqrt();
+        p.speed_m_s = Some(v);
+        p.flight_path_angle_rad = Some(0.0);
+        let s = solve(&p).unwrap();
+        assert_relative_eq!(
+            s.solutions[0].state.conic.periapsis_radius_m(),
+            p.burnout_radius_m,
+            max_relative = 1e-14
+        );
+    }
+
+    #[test]
+    fn suborbital_target_warns_but_solves() {
+        let re = crate::body::EARTH_RADIUS_M;
+        let mut p = earth_problem(
+            0.0,
+            vec![Target::new(Q::ApoapsisRadius, re + 100e3, "--apoapsis-alt")],
+        );
+        p.flight_path_angle_rad = Some(80f64.to_radians());
+        let s = solve(&p).unwrap();
+        assert!(
+            s.warnings()[0].starts_with("suborbital"),
+            "{:?}",
+            s.warnings()
+        );
+    }
+}

@@ -1,0 +1,200 @@
+//! JSON wire types (serialize-only, SI with units in the keys) and writer.
+
+use crate::problem::{Solution, Solved};
+use crate::sensitivity::{COLS, ROWS};
+use serde::Serialize;
+use std::io::Write;
+
+/// `body` object.
+#[derive(Serialize)]
+pub struct BodyJson {
+    /// Body name.
+    pub name: String,
+    /// GM, m^3/s^2.
+    pub mu_m3_s2: f64,
+    /// Equatorial radius, m.
+    pub radius_m: f64,
+}
+
+/// `orbit` object.
+#[derive(Serialize, Clone)]
+pub struct OrbitJson {
+    /// Periapsis radius, m.
+    pub periapsis_radius_m: f64,
+    /// Apoapsis radius, m (null for open orbits).
+    pub apoapsis_radius_m: Option<f64>,
+    /// Semi-major axis, m (null for a parabola; negative for a hyperbola).
+    pub sma_m: Option<f64>,
+    /// Eccentricity.
+    pub ecc: f64,
+    /// Period, s (null for open orbits).
+    pub period_s: Option<f64>,
+    /// Specific orbital energy, J/kg.
+    pub specific_energy_j_kg: f64,
+    /// Specific angular momentum, m^2/s.
+    pub angular_momentum_m2_s: f64,
+    /// C3, m^2/s^2.
+    pub c3_m2_s2: f64,
+    /// Semi-latus rectum, m (addition to the contract).
+    pub semi_latus_rectum_m: f64,
+    /// Periapsis altitude above the equatorial radius, m (addition).
+    pub periapsis_alt_m: f64,
+    /// Apoapsis altitude, m (addition; null for open orbits).
+    pub apoapsis_alt_m: Option<f64>,
+}
+
+/// `sensitivity` object.
+#[derive(Serialize)]
+pub struct SensitivityJson {
+    /// Row names.
+    pub rows: [&'static str; 5],
+    /// Column names.
+    pub cols: [&'static str; 3],
+    /// Partials; a row is null where the quantity does not exist.
+    pub matrix: Vec<Option<[f64; 3]>>,
+}
+
+/// One entry of `solutions`.
+#[derive(Serialize)]
+pub struct SolutionJson {
+    /// `ascending` or `descending`.
+    pub branch: &'static str,
+    /// Burnout speed, m/s.
+    pub speed_m_s: f64,
+    /// Flight-path angle from the local horizontal, deg.
+    pub flight_path_angle_deg: f64,
+    /// Zenith angle from the local vertical, deg (addition).
+    pub zenith_angle_deg: f64,
+    /// True anomaly at burnout, deg.
+    pub true_anomaly_deg: f64,
+    /// Radial and horizontal speed components, m/s (addition).
+    pub radial_speed_m_s: f64,
+    /// Horizontal speed, m/s (addition).
+    pub horizontal_speed_m_s: f64,
+    /// The orbit of this solution (addition; differs between entries only
+    /// when a target set has two speeds).
+    pub orbit: OrbitJson,
+    /// Partials.
+    pub sensitivity: SensitivityJson,
+    /// Warnings for this solution (addition).
+    pub warnings: Vec<String>,
+}
+
+/// `solver` object.
+#[derive(Serialize)]
+pub struct SolverJson {
+    /// `closed-form` or the numerical method.
+    pub method: String,
+    /// Iterations.
+    pub iterations: u64,
+    /// Termination reason.
+    pub termination: String,
+    /// Achieved minus targeted value per target key, SI.
+    pub residuals: serde_json::Map<String, serde_json::Value>,
+}
+
+/// The whole `solve` document.
+#[derive(Serialize)]
+pub struct SolveJson {
+    /// Body.
+    pub body: BodyJson,
+    /// Burnout radius, m.
+    pub burnout_radius_m: f64,
+    /// Burnout altitude, m (addition).
+    pub burnout_alt_m: f64,
+    /// Circular speed at burnout radius, m/s (addition).
+    pub circular_speed_m_s: f64,
+    /// Escape speed at burnout radius, m/s (addition).
+    pub escape_speed_m_s: f64,
+    /// Orbit of the first solution.
+    pub orbit: Option<OrbitJson>,
+    /// Solutions.
+    pub solutions: Vec<SolutionJson>,
+    /// Warnings.
+    pub warnings: Vec<String>,
+    /// How it was solved.
+    pub solver: SolverJson,
+}
+
+/// Orbit object of a solution.
+pub fn orbit_json(mu: f64, surface_m: f64, s: &Solution) -> OrbitJson {
+    let c = &s.state.conic;
+    OrbitJson {
+        periapsis_radius_m: c.periapsis_radius_m(),
+        apoapsis_radius_m: c.apoapsis_radius_m(),
+        sma_m: c.sma_m(),
+        ecc: c.ecc(),
+        period_s: c.period_s(mu),
+        specific_energy_j_kg: c.specific_energy_j_kg(mu),
+        angular_momentum_m2_s: c.angular_momentum_m2_s(mu),
+        c3_m2_s2: c.c3_m2_s2(mu),
+        semi_latus_rectum_m: c.semi_latus_rectum_m(),
+        periapsis_alt_m: c.periapsis_radius_m() - surface_m,
+        apoapsis_alt_m: c.apoapsis_radius_m().map(|r| r - surface_m),
+    }
+}
+
+fn solution_json(mu: f64, surface_m: f64, s: &Solution) -> SolutionJson {
+    let st = &s.state;
+    let (sin_g, cos_g) = st.flight_path_angle_rad.sin_cos();
+    SolutionJson {
+        branch: st.branch.name(),
+        speed_m_s: st.speed_m_s,
+        flight_path_angle_deg: st.flight_path_angle_rad.to_degrees(),
+        zenith_angle_deg: 90.0 - st.flight_path_angle_rad.to_degrees(),
+        true_anomaly_deg: st.true_anomaly_rad.to_degrees(),
+        radial_speed_m_s: st.speed_m_s * sin_g,
+        horizontal_speed_m_s: st.speed_m_s * cos_g,
+        orbit: orbit_json(mu, surface_m, s),
+        sensitivity: SensitivityJson {
+            rows: ROWS,
+            cols: COLS,
+            matrix: s.sensitivity.rows.to_vec(),
+        },
+        warnings: s.warnings.iter().map(|w| w.to_string()).collect(),
+    }
+}
+
+/// Builds the wire document for a solved problem.
+pub fn document(solved: &Solved) -> SolveJson {
+    let mu = solved.body.mu_m3_s2;
+    let surface = solved.body.radius_m;
+    let solutions: Vec<SolutionJson> = solved
+        .solutions
+        .iter()
+        .map(|s| solution_json(mu, surface, s))
+        .collect();
+    let mut residuals = serde_json::Map::new();
+    for (k, v) in &solved.solver.residuals {
+        residuals.insert(k.clone(), serde_json::json!(v));
+    }
+    SolveJson {
+        body: BodyJson {
+            name: solved.body.name.clone(),
+            mu_m3_s2: mu,
+            radius_m: surface,
+        },
+        burnout_radius_m: solved.burnout_radius_m,
+        burnout_alt_m: solved.burnout_radius_m - surface,
+        circular_speed_m_s: solved.body.circular_speed_m_s(solved.burnout_radius_m),
+        escape_speed_m_s: solved.body.escape_speed_m_s(solved.burnout_radius_m),
+        orbit: solutions.first().map(|s| s.orbit.clone()),
+        solutions,
+        warnings: solved.warnings(),
+        solver: SolverJson {
+            method: solved.solver.method.clone(),
+            iterations: solved.solver.iterations,
+            termination: solved.solver.termination.clone(),
+            residuals,
+        },
+    }
+}
+
+/// Writes the solved problem as pretty JSON followed by a newline.
+///
+/// # Errors
+/// I/O errors of `out`.
+pub fn write(out: &mut impl Write, solved: &Solved) -> std::io::Result<()> {
+    serde_json::to_writer_pretty(&mut *out, &document(solved))?;
+    writeln!(out)
+}

@@ -1,0 +1,9 @@
+//! Writers for solved problems: human tables, JSON and CSV. Each takes any
+//! `impl std::io::Write`.
+
+pub mod csv;
+pub mod json;
+pub mod table;
+
+/// The caution printed with every human-readable result.
+pub const CAUTION: &str = "caution: analysis support only. Two-body, impulsive-burnout model (no drag, no oblateness, no finite burns). Verify independently before use; local range-safety rules, flight-safety codes and licensed practice govern any real flight.";

@@ -1,0 +1,234 @@
+//! Human-readable tables.
+
+use crate::error::g;
+use crate::problem::Solved;
+use crate::units::{FT_M, NMI_M};
+use std::io::Write;
+
+/// Units for human output.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum DisplayUnits {
+    /// km, km/s, deg.
+    #[default]
+    Si,
+    /// nmi, ft/s, deg.
+    Us,
+}
+
+impl DisplayUnits {
+    /// Length unit name and metres per unit.
+    pub fn length(self) -> (&'static str, f64) {
+        match self {
+            DisplayUnits::Si => ("km", 1e3),
+            DisplayUnits::Us => ("nmi", NMI_M),
+        }
+    }
+    /// Speed unit name and m/s per unit.
+    pub fn speed(self) -> (&'static str, f64) {
+        match self {
+            DisplayUnits::Si => ("km/s", 1e3),
+            DisplayUnits::Us => ("ft/s", FT_M),
+        }
+    }
+    /// Small speed step used for error coefficients, its label and m/s.
+    fn speed_step(self) -> (&'static str, f64) {
+        match self {
+            DisplayUnits::Si => ("+1 m/s", 1.0),
+            DisplayUnits::Us => ("+1 ft/s", FT_M),
+        }
+    }
+    fn alt_step(self) -> (&'static str, f64) {
+        match self {
+            DisplayUnits::Si => ("+1 km alt", 1e3),
+            DisplayUnits::Us => ("+1 nmi alt", NMI_M),
+        }
+    }
+}
+
+fn fixed(x: f64, decimals: usize) -> String {
+    format!("{x:.decimals$}")
+}
+
+fn duration(t_s: f64) -> String {
+    if t_s >= 86_400.0 * 2.0 {
+        format!("{} d ({} s)", fixed(t_s / 86_400.0, 4), fixed(t_s, 1))
+    } else if t_s >= 7_200.0 {
+        format!("{} h ({} s)", fixed(t_s / 3600.0, 4), fixed(t_s, 1))
+    } else {
+        format!("{} min ({} s)", fixed(t_s / 60.0, 3), fixed(t_s, 2))
+    }
+}
+
+/// Writes the human-readable report.
+///
+/// # Errors
+/// I/O errors of `out`.
+pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std::io::Result<()> {
+    let (lu, lf) = units.length();
+    let (su, sf) = units.speed();
+    let body = &solved.body;
+    let mu = body.mu_m3_s2;
+    let r = solved.burnout_radius_m;
+    writeln!(
+        out,
+        "burnout over {}: altitude {} {lu} (radius {} {lu})",
+        body.name,
+        fixed((r - body.radius_m) / lf, 3),
+        fixed(r / lf, 3)
+    )?;
+    writeln!(
+        out,
+        "  circular speed {} {su}, escape speed {} {su} at burnout radius",
+        fixed(body.circular_speed_m_s(r) / sf, 4),
+        fixed(body.escape_speed_m_s(r) / sf, 4)
+    )?;
+    writeln!(
+        out,
+        "  answered by: {} ({})",
+        solved.solver.method, solved.solver.termination
+    )?;
+    if solved.solver.method != "closed-form" {
+        writeln!(out, "  iterations: {}", solved.solver.iterations)?;
+    }
+    for (k, v) in &solved.solver.residuals {
+        if solved.solver.method != "closed-form" {
+            writeln!(out, "  residual {k}: {}", g(*v))?;
+        }
+    }
+    let distinct_orbits = solved
+        .solutions
+        .windows(2)
+        .any(|w| w[0].state.conic != w[1].state.conic);
+    writeln!(out)?;
+    writeln!(
+        out,
+        "{:<11} {:>13} {:>12} {:>12} {:>16}",
+        "branch",
+        format!("speed {su}"),
+        "fpa deg",
+        "zenith deg",
+        "true anom. deg"
+    )?;
+    for s in &solved.solutions {
+        let st = &s.state;
+        writeln!(
+            out,
+            "{:<11} {:>13} {:>12} {:>12} {:>16}",
+            st.branch.name(),
+            fixed(
+                st.speed_m_s / sf,
+                if units == DisplayUnits::Us { 2 } else { 6 }
+            ),
+            fixed(st.flight_path_angle_rad.to_degrees(), 6),
+            fixed(90.0 - st.flight_path_angle_rad.to_degrees(), 6),
+            fixed(st.true_anomaly_rad.to_degrees(), 4)
+        )?;
+    }
+    let orbits: Vec<_> = if distinct_orbits {
+        solved.solutions.iter().collect()
+    } else {
+        solved.solutions.iter().take(1).collect()
+    };
+    for (i, s) in orbits.iter().enumerate() {
+        let c = &s.state.conic;
+        writeln!(out)?;
+        if distinct_orbits {
+            writeln!(
+                out,
+                "orbit of solution {} ({}):",
+                i + 1,
+                s.state.branch.name()
+            )?;
+        } else {
+            writeln!(out, "orbit:")?;
+        }
+        let alt = |x: f64| {
+            format!(
+                "{} {lu} alt ({} {lu} radius)",
+                fixed((x - body.radius_m) / lf, 3),
+                fixed(x / lf, 3)
+            )
+        };
+        writeln!(out, "  periapsis        {}", alt(c.periapsis_radius_m()))?;
+        match c.apoapsis_radius_m() {
+            Some(ra) => writeln!(out, "  apoapsis         {}", alt(ra))?,
+            None => writeln!(out, "  apoapsis         none (open orbit)")?,
+        }
+        match c.sma_m() {
+            Some(a) => writeln!(out, "  semi-major axis  {} {lu}", fixed(a / lf, 3))?,
+            None => writeln!(out, "  semi-major axis  infinite (parabola)")?,
+        }
+        writeln!(out, "  eccentricity     {}", fixed(c.ecc(), 9))?;
+        match c.period_s(mu) {
+            Some(t) => writeln!(out, "  period           {}", duration(t))?,
+            None => writeln!(out, "  period           none (open orbit)")?,
+        }
+        writeln!(
+            out,
+            "  specific energy  {} km2/s2",
+            fixed(c.specific_energy_j_kg(mu) / 1e6, 6)
+        )?;
+        writeln!(
+            out,
+            "  C3               {} km2/s2",
+            fixed(c.c3_m2_s2(mu) / 1e6, 6)
+        )?;
+        writeln!(
+            out,
+            "  angular momentum {} km2/s",
+            fixed(c.angular_momentum_m2_s(mu) / 1e6, 3)
+        )?;
+    }
+    let (vs_label, vs) = units.speed_step();
+    let (alt_label, alt_step) = units.alt_step();
+    for s in &solved.solutions {
+        writeln!(out)?;
+        writeln!(
+            out,
+            "error coefficients ({}, {} {su}): change per burnout error",
+            s.state.branch.name(),
+            fixed(s.state.speed_m_s / sf, 4)
+        )?;
+        writeln!(
+            out,
+            "  {:<16} {:>14} {:>14} {:>14}",
+            "", vs_label, "+0.1 deg fpa", alt_label
+        )?;
+        let names = [
+            format!("periapsis {lu}"),
+            format!("apoapsis {lu}"),
+            format!("sma {lu}"),
+            "ecc".to_string(),
+            "period s".to_string(),
+        ];
+        for (i, row) in s.sensitivity.rows.iter().enumerate() {
+            let scale = if i < 3 { 1.0 / lf } else { 1.0 };
+            match row {
+                Some(m) => writeln!(
+                    out,
+                    "  {:<16} {:>14} {:>14} {:>14}",
+                    names[i],
+                    g(m[0] * vs * scale),
+                    g(m[1] * 0.1 * scale),
+                    g(m[2] * alt_step * scale)
+                )?,
+                None => writeln!(
+                    out,
+                    "  {:<16} {:>14} {:>14} {:>14}",
+                    names[i], "-", "-", "-"
+                )?,
+            }
+        }
+    }
+    let warnings = solved.warnings();
+    if !warnings.is_empty() {
+        writeln!(out)?;
+        writeln!(out, "warnings:")?;
+        for w in warnings {
+            writeln!(out, "  - {w}")?;
+        }
+    }
+    writeln!(out)?;
+    writeln!(out, "{}", super::CAUTION)?;
+    Ok(())
+}

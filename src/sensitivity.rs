@@ -1,0 +1,176 @@
+//! Analytic partial derivatives of the orbit with respect to the burnout state.
+//!
+//! With Q = r v^2 / mu, c = cos g, s = sin g, the forward map is
+//! X = e cos nu = Q c^2 - 1, Y = e sin nu = Q s c, e = hypot(X, Y),
+//! p = r Q c^2, rp = p / (1 + e), ra = p / (1 - e), a = r / (2 - Q),
+//! T = 2 pi sqrt(a^3 / mu). Differentiating:
+//! - dX = c^2 dQ - 2 Q s c dg,  dY = s c dQ + Q cos(2g) dg,
+//!   dQ = (2Q/v) dv + (Q/r) dr;
+//! - de = cos(nu) dX + sin(nu) dY (at e = 0 we take nu = 0: burnout at
+//!   periapsis, the one-sided derivative in the direction of increasing speed);
+//! - dp = (2p/v) dv + (2p/r) dr - 2 p tan(g) dg;
+//! - drp = dp/(1+e) - p de/(1+e)^2,  dra = dp/(1-e) + p de/(1-e)^2;
+//! - da = (2 a^2 Q / (r v)) dv + (2 a^2 / r^2) dr;  dT = (3 T / (2 a)) da.
+
+/// Row labels of the sensitivity matrix (machine keys).
+pub const ROWS: [&str; 5] = [
+    "periapsis_radius_m",
+    "apoapsis_radius_m",
+    "sma_m",
+    "ecc",
+    "period_s",
+];
+/// Column labels of the sensitivity matrix (machine keys).
+pub const COLS: [&str; 3] = ["speed_m_s", "flight_path_angle_deg", "burnout_radius_m"];
+
+/// The 5x3 matrix of partials d(row)/d(col): rows periapsis radius (m),
+/// apoapsis radius (m), sma (m), ecc (-), period (s); columns per m/s of
+/// speed, per deg of flight-path angle, per m of burnout radius. A row is
+/// `None` where the quantity does not exist for the orbit (apoapsis and period
+/// of an open orbit, sma of a parabola).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Sensitivity {
+    /// Rows in the order of [`ROWS`].
+    pub rows: [Option<[f64; 3]>; 5],
+}
+
+/// Partials with the flight-path-angle column per radian (the form the
+/// error-budget mathematics uses).
+pub fn partials_per_rad(
+    mu_m3_s2: f64,
+    radius_m: f64,
+    speed_m_s: f64,
+    flight_path_angle_rad: f64,
+) -> Sensitivity {
+    let (r, v, mu) = (radius_m, speed_m_s, mu_m3_s2);
+    let (s, c) = flight_path_angle_rad.sin_cos();
+    let q = r * v * v / mu;
+    let x = q * c * c - 1.0;
+    let y = q * s * c;
+    let e = x.hypot(y);
+    let (cn, sn) = if e > 0.0 { (x / e, y / e) } else { (1.0, 0.0) };
+    let dq = [2.0 * q / v, 0.0, q / r];
+    let dx = [c * c * dq[0], -2.0 * q * s * c, c * c * dq[2]];
+    let dy = [s * c * dq[0], q * (c * c - s * s), s * c * dq[2]];
+    let de: [f64; 3] = std::array::from_fn(|k| cn * dx[k] + sn * dy[k]);
+    let p = r * q * c * c;
+    let dp = [
+        2.0 * p / v,
+        -2.0 * p * s / c.max(f64::MIN_POSITIVE),
+        2.0 * p / r,
+    ];
+    let dp = if c == 0.0 { [0.0, 0.0, 0.0] } else { dp };
+    let drp: [f64; 3] =
+        std::array::from_fn(|k| dp[k] / (1.0 + e) - p * de[k] / ((1.0 + e) * (1.0 + e)));
+    let closed = e < 1.0;
+    let dra = closed
+        .then(|| std::array::from_fn(|k| dp[k] / (1.0 - e) + p * de[k] / ((1.0 - e) * (1.0 - e))));
+    let two_minus_q = 2.0 - q;
+    let (da, dt) = if two_minus_q != 0.0 {
+        let a = r / two_minus_q;
+        let da = [2.0 * a * a * q / (r * v), 0.0, 2.0 * a * a / (r * r)];
+        let dt = closed.then(|| {
+            let t = 2.0 * std::f64::consts::PI * (a * a * a / mu).sqrt();
+            std::array::from_fn(|k| 1.5 * t / a * da[k])
+        });
+        (Some(da), dt)
+    } else {
+        (None, None)
+    };
+    Sensitivity {
+        rows: [Some(drp), dra, da, Some(de), dt],
+    }
+}
+
+/// Partials as in the machine contract: flight-path angle column per degree.
+pub fn partials(
+    mu_m3_s2: f64,
+    radius_m: f64,
+    speed_m_s: f64,
+    flight_path_angle_rad: f64,
+) -> Sensitivity {
+    let mut s = partials_per_rad(mu_m3_s2, radius_m, speed_m_s, flight_path_angle_rad);
+    let per_deg = std::f64::consts::PI / 180.0;
+    for row in s.rows.iter_mut().flatten() {
+        row[1] *= per_deg;
+    }
+    s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::orbit::forward;
+    use approx::assert_relative_eq;
+
+    const MU: f64 = crate::body::EARTH_MU_M3_S2;
+
+    fn values(r: f64, v: f64, g: f64) -> [f64; 5] {
+        let (c, _) = forward(MU, r, v, g).unwrap();
+        [
+            c.periapsis_radius_m(),
+            c.apoapsis_radius_m().unwrap_or(f64::NAN),
+            c.sma_m().unwrap_or(f64::NAN),
+            c.ecc(),
+            c.period_s(MU).unwrap_or(f64::NAN),
+        ]
+    }
+
+    /// Central finite differences of the forward map, per m/s, per deg, per m.
+    fn finite_difference(r: f64, v: f64, g: f64) -> [[f64; 3]; 5] {
+        let hv = v * 1e-6;
+        let hg = 1e-6;
+        let hr = r * 1e-6;
+        let mut out = [[0.0; 3]; 5];
+        let cols = [
+            (values(r, v + hv, g), values(r, v - hv, g), 2.0 * hv),
+            (
+                values(r, v, g + hg),
+                values(r, v, g - hg),
+                2.0 * hg.to_degrees(),
+            ),
+            (values(r + hr, v, g), values(r - hr, v, g), 2.0 * hr),
+        ];
+        for (k, (plus, minus, h)) in cols.iter().enumerate() {
+            for i in 0..5 {
+                out[i][k] = (plus[i] - minus[i]) / h;
+            }
+        }
+        out
+    }
+
+    #[test]
+    fn partials_match_central_differences_on_an_ellipse() {
+        let (r, v, g) = (6_778_137.0, 8_200.0, 3f64.to_radians());
+        let s = partials(MU, r, v, g);
+        let fd = finite_difference(r, v, g);
+        for i in 0..5 {
+            let row = s.rows[i].unwrap();
+            // Central differences with relative step 1e-6 carry ~1e-7 relative
+            // truncation error plus rounding noise of ~1e-16 * value / step;
+            // an exact zero partial is compared against that noise floor.
+            let scale = fd[i].iter().fold(0.0f64, |m, x| m.max(x.abs()));
+            for k in 0..3 {
+                assert_relative_eq!(
+                    row[k],
+                    fd[i][k],
+                    max_relative = 1e-5,
+                    epsilon = 1e-6 * scale
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn hyperbola_has_null_apoapsis_and_period_rows() {
+        let s = partials(MU, 6_778_137.0, 12_000.0, 0.1);
+        assert!(s.rows[1].is_none() && s.rows[4].is_none());
+        assert!(s.rows[0].is_some() && s.rows[2].is_some());
+    }
+
+    #[test]
+    fn horizontal_burnout_at_periapsis_has_zero_periapsis_angle_partial() {
+        let s = partials(MU, 6_778_137.0, 8_000.0, 0.0);
+        assert_eq!(s.rows[0].unwrap()[1], 0.0);
+    }
+}
