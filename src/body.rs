@@ -58,7 +58,7 @@ pub const MOON_RADIUS_M: f64 = 1_737_400.0;
 /// Mars GM, m^3/s^2.
 // Source: JPL DE421 value 42828.375214 km^3/s^2 as listed by the IAU 2009
 // system of constants' planetary mass ratios (digits from memory).
-pub const MARS_MU_M3_S2: f64 = 4.282_837_5214e13;
+pub const MARS_MU_M3_S2: f64 = 4.282_837_521_4e13;
 /// Mars equatorial radius, m.
 // Source: IAU WGCCRE report 2015 (Archinal et al. 2018), 3396.19 km.
 pub const MARS_RADIUS_M: f64 = 3_396_190.0;
@@ -152,10 +152,12 @@ impl Body {
                 None,
             ),
             "sun" => (SUN_MU_M3_S2, SUN_RADIUS_M, None, deg_per_day(14.1844), None),
-            _ => return Err(Error::Usage(format!(
+            _ => {
+                return Err(Error::Usage(format!(
                 "unknown body '{name}' for --body: expected one of {} (or give --mu and --radius)",
                 CATALOG.join(", ")
-            ))),
+            )))
+            }
         };
         Ok(Body {
             name: key,

@@ -395,6 +395,7 @@ pub fn fpa_for_speed(
 }
 
 #[cfg(test)]
+#[allow(clippy::float_cmp)] // exact zeros, exact parabolas and mirror images are asserted on purpose
 mod tests {
     use super::*;
     use approx::assert_relative_eq;
@@ -558,5 +559,82 @@ mod tests {
         );
         let e = fpa_for_speed(MU, r, 11_500.0, &t).unwrap_err().to_string();
         assert!(e.contains("escape speed"), "{e}");
+    }
+}
+
+#[cfg(test)]
+mod properties {
+    use super::*;
+    use crate::strategies::{burnout_state, targeted};
+    use proptest::prelude::*;
+
+    fn close(a: f64, b: f64, rel: f64) -> bool {
+        (a - b).abs() <= rel * a.abs().max(b.abs())
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(2000))]
+
+        #[test]
+        fn inverse_then_forward_recovers_the_target((body, conic, r) in targeted()) {
+            let mu = body.mu_m3_s2;
+            for st in burnout_for_conic(mu, &conic, r).unwrap() {
+                let (back, nu) = forward(mu, r, st.speed_m_s, st.flight_path_angle_rad).unwrap();
+                prop_assert!(close(back.periapsis_radius_m(), conic.periapsis_radius_m(), 1e-10),
+                    "rp {} vs {}", back.periapsis_radius_m(), conic.periapsis_radius_m());
+                if let Some(ra) = conic.apoapsis_radius_m() {
+                    // Near-parabolic ellipses put ra far out; its digits follow 1/(1-e).
+                    let tol = if conic.ecc() > 0.999 { 1e-10 / (1.0 - conic.ecc()) * 1e-3 } else { 1e-10 };
+                    prop_assert!(close(back.apoapsis_radius_m().unwrap(), ra, tol.max(1e-10)),
+                        "ra {:?} vs {}", back.apoapsis_radius_m(), ra);
+                }
+                // Eccentricity: relative 1e-10, plus an absolute 2.5e-12: e carries only
+                // absolute digits near circular, and a burnout within the 1e-12 apsis
+                // tolerance is snapped to that apsis (contract rule), moving e by up to
+                // about 2e-12.
+                prop_assert!((back.ecc() - conic.ecc()).abs() <= 1e-10 * conic.ecc() + 2.5e-12,
+                    "e {} vs {}", back.ecc(), conic.ecc());
+                if conic.ecc() > 1e-6 {
+                    let d = (nu - st.true_anomaly_rad).abs();
+                    prop_assert!(d.min(2.0 * PI - d) < 1e-7, "nu {} vs {}", nu, st.true_anomaly_rad);
+                }
+            }
+        }
+
+        #[test]
+        fn forward_then_inverse_recovers_speed_and_angle((body, r, v, g) in burnout_state()) {
+            let mu = body.mu_m3_s2;
+            let (conic, _) = forward(mu, r, v, g).unwrap();
+            let states = burnout_for_conic(mu, &conic, r).unwrap();
+            let best = states
+                .iter()
+                .min_by(|a, b| (a.flight_path_angle_rad - g).abs().total_cmp(&(b.flight_path_angle_rad - g).abs()))
+                .unwrap();
+            prop_assert!(close(best.speed_m_s, v, 1e-10), "v {} vs {}", best.speed_m_s, v);
+            // Near an apsis the angle follows sqrt(ra - r), and ra carries rounding
+            // of ~1e-16 ra from the forward map, so the recoverable absolute
+            // accuracy grows like 1e-16 / |g|.
+            prop_assert!((best.flight_path_angle_rad - g).abs() <= 1e-10 * g.abs() + 1e-14 / g.abs().max(1e-300),
+                "fpa {} vs {}", best.flight_path_angle_rad, g);
+        }
+
+        #[test]
+        fn speed_for_each_apsis_target_reaches_it((body, r, _v, g) in burnout_state(), k in 1.0001f64..30.0) {
+            let mu = body.mu_m3_s2;
+            let t = Target::new(TargetQuantity::ApoapsisRadius, r * k, "--apoapsis-radius");
+            let s = speed_for_target(mu, r, g, &t).unwrap();
+            let (back, _) = forward(mu, r, s[0].speed_m_s, g).unwrap();
+            prop_assert!(close(back.apoapsis_radius_m().unwrap(), r * k, 1e-10));
+        }
+
+        #[test]
+        fn descending_branch_mirrors_ascending_everywhere((body, conic, r) in targeted()) {
+            let states = burnout_for_conic(body.mu_m3_s2, &conic, r).unwrap();
+            if states.len() == 2 {
+                prop_assert_eq!(states[0].speed_m_s.to_bits(), states[1].speed_m_s.to_bits());
+                prop_assert_eq!(states[0].flight_path_angle_rad.to_bits(), (-states[1].flight_path_angle_rad).to_bits());
+                prop_assert!(states[0].flight_path_angle_rad >= 0.0);
+            }
+        }
     }
 }

@@ -65,7 +65,7 @@ pub fn time_since_periapsis_s(mu_m3_s2: f64, conic: &Conic, nu_rad: f64) -> f64 
         m / n
     } else {
         let nu_s = if nu > PI { nu - 2.0 * PI } else { nu };
-        if e == 1.0 {
+        if crate::orbit::exactly(e, 1.0) {
             let p = conic.semi_latus_rectum_m();
             let d = (0.5 * nu_s).tan();
             0.5 * (p * p * p / mu_m3_s2).sqrt() * (d + d * d * d / 3.0)

@@ -35,6 +35,8 @@ pub mod orbit;
 pub mod problem;
 pub mod report;
 pub mod sensitivity;
+#[cfg(test)]
+pub(crate) mod strategies;
 pub mod target;
 pub mod units;
 

@@ -94,7 +94,7 @@ impl Conic {
             ConicKind::Circular
         } else if self.ecc < 1.0 {
             ConicKind::Elliptic
-        } else if self.ecc == 1.0 {
+        } else if exactly(self.ecc, 1.0) {
             ConicKind::Parabolic
         } else {
             ConicKind::Hyperbolic
@@ -106,7 +106,7 @@ impl Conic {
     pub fn sma_m(&self) -> Option<f64> {
         match self.apoapsis_radius_m {
             Some(ra) => Some(0.5 * (self.periapsis_radius_m + ra)),
-            None if self.ecc == 1.0 => None,
+            None if exactly(self.ecc, 1.0) => None,
             None => Some(self.periapsis_radius_m / (1.0 - self.ecc)),
         }
     }
@@ -150,6 +150,14 @@ impl Conic {
     pub fn radius_at_m(&self, nu_rad: f64) -> f64 {
         self.semi_latus_rectum_m() / (1.0 + self.ecc * nu_rad.cos())
     }
+}
+
+/// Whether `x` is exactly `value`. Used for the exact parabola (e = 1, Q = 2)
+/// only: a near-parabolic conic stays an ellipse or hyperbola with its own
+/// (large) semi-major axis, which the formulas handle.
+#[allow(clippy::float_cmp)]
+pub(crate) fn exactly(x: f64, value: f64) -> bool {
+    x == value
 }
 
 /// Validates an eccentricity.
@@ -218,7 +226,7 @@ pub fn forward(
     } else {
         Conic {
             periapsis_radius_m: rp,
-            ecc: if q == 2.0 { 1.0 } else { ecc.max(1.0) },
+            ecc: if exactly(q, 2.0) { 1.0 } else { ecc.max(1.0) },
             apoapsis_radius_m: None,
         }
     };
@@ -240,6 +248,7 @@ pub(crate) fn check_fpa(fpa_rad: f64) -> Result<f64, Error> {
 }
 
 #[cfg(test)]
+#[allow(clippy::float_cmp)] // exact zeros, exact parabolas and mirror images are asserted on purpose
 mod tests {
     use super::*;
     use approx::assert_relative_eq;
@@ -288,16 +297,34 @@ mod tests {
     }
 
     #[test]
-    fn forward_state_vector_example() {
-        // Curtis, Orbital Mechanics for Engineering Students, 3rd ed., Example 2.8
-        // (from memory): at r = 6378+500... we instead use an independent check:
-        // a horizontal burnout at circular speed gives a circle of that radius.
+    fn curtis_state_vector_to_elements_example() {
+        // Curtis, Orbital Mechanics for Engineering Students, 3rd ed., Example 4.3
+        // (from memory; digits as printed to 4 significant figures):
+        // r = (-6045, -3490, 2500) km, v = (-3.457, 6.618, 2.533) km/s,
+        // mu = 398600 km^3/s^2 give h = 58310 km^2/s, e = 0.1712, theta = 28.45 deg,
+        // v_r = 0.5575 km/s.
+        let mu = 398_600e9;
+        let r_vec = [-6045e3, -3490e3, 2500e3];
+        let v_vec = [-3457.0, 6618.0, 2533.0];
+        let dot = |a: &[f64; 3], b: &[f64; 3]| a[0] * b[0] + a[1] * b[1] + a[2] * b[2];
+        let r = dot(&r_vec, &r_vec).sqrt();
+        let v = dot(&v_vec, &v_vec).sqrt();
+        let vr = dot(&r_vec, &v_vec) / r;
+        let fpa = (vr / v).asin();
+        let (c, nu) = forward(mu, r, v, fpa).unwrap();
+        assert_relative_eq!(vr, 557.5, max_relative = 2e-4);
+        assert_relative_eq!(c.angular_momentum_m2_s(mu), 58_310e6, max_relative = 2e-4);
+        assert_relative_eq!(c.ecc(), 0.1712, max_relative = 5e-4);
+        assert_relative_eq!(nu.to_degrees(), 28.45, max_relative = 5e-4);
+    }
+
+    #[test]
+    fn horizontal_circular_speed_gives_a_circle() {
         let r = 7_000_000.0;
         let v = (MU / r).sqrt();
-        let (c, nu) = forward(MU, r, v, 0.0).unwrap();
+        let (c, _) = forward(MU, r, v, 0.0).unwrap();
         assert!(c.ecc() < 1e-15);
         assert_relative_eq!(c.periapsis_radius_m(), r, max_relative = 1e-15);
-        assert!(nu.abs() < 1e-12 || (nu - 2.0 * PI).abs() < 1e-12 || c.ecc() < 1e-15);
     }
 
     #[test]

@@ -232,6 +232,7 @@ pub fn describe_alt(body: &Body, radius_m: f64) -> String {
 }
 
 #[cfg(test)]
+#[allow(clippy::float_cmp)] // exact zeros, exact parabolas and mirror images are asserted on purpose
 mod tests {
     use super::*;
     use approx::assert_relative_eq;
@@ -306,6 +307,64 @@ mod tests {
             s.warnings()[0].starts_with("suborbital"),
             "{:?}",
             s.warnings()
+        );
+    }
+
+    #[test]
+    fn curtis_mars_departure_injection_speed() {
+        // Curtis, Orbital Mechanics for Engineering Students, 3rd ed., Example 8.3
+        // (from memory): departure from a 300 km circular parking orbit on a
+        // hyperbola with v_inf = 2.943 km/s needs a perigee speed of 11.32 km/s,
+        // a delta-v of 3.590 km/s over the 7.726 km/s circular speed
+        // (mu = 398600 km^3/s^2, Earth radius 6378 km).
+        let body = Body::custom(398_600e9, 6_378e3).unwrap();
+        let r = 6_678e3;
+        let v_inf: f64 = 2_943.0;
+        let p = Problem {
+            body,
+            burnout_radius_m: r,
+            targets: vec![
+                Target::new(Q::PeriapsisRadius, r, "--periapsis-radius"),
+                Target::new(Q::C3, v_inf * v_inf, "--c3"),
+            ],
+            flight_path_angle_rad: None,
+            speed_m_s: None,
+            min_periapsis_alt_m: None,
+        };
+        let s = solve(&p).unwrap();
+        assert_eq!(s.solutions.len(), 1);
+        let v = s.solutions[0].state.speed_m_s;
+        assert_relative_eq!(v, 11_315.0, max_relative = 1e-4);
+        assert_relative_eq!(v - (398_600e9f64 / r).sqrt(), 3_590.0, max_relative = 5e-4);
+    }
+
+    #[test]
+    fn curtis_perigee_speed_example() {
+        // Curtis, Orbital Mechanics for Engineering Students, 3rd ed., Example 2.8
+        // (from memory; example number and last digits not re-checked): an earth
+        // satellite with perigee altitude 1270 km and perigee speed 9 km/s has
+        // e = 0.554, apogee altitude about 20 280 km and period about 6.2 h.
+        let body = Body::custom(398_600e9, 6_378e3).unwrap();
+        let p = Problem {
+            body,
+            burnout_radius_m: 7_648e3,
+            targets: vec![],
+            flight_path_angle_rad: Some(0.0),
+            speed_m_s: Some(9_000.0),
+            min_periapsis_alt_m: None,
+        };
+        let s = solve(&p).unwrap();
+        let c = s.solutions[0].state.conic;
+        assert_relative_eq!(c.ecc(), 0.554, max_relative = 2e-3);
+        assert_relative_eq!(
+            c.apoapsis_radius_m().unwrap() - 6_378e3,
+            20_280e3,
+            max_relative = 2e-3
+        );
+        assert_relative_eq!(
+            c.period_s(398_600e9).unwrap() / 3600.0,
+            6.2,
+            max_relative = 1e-2
         );
     }
 }

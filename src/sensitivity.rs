@@ -98,6 +98,7 @@ pub fn partials(
 }
 
 #[cfg(test)]
+#[allow(clippy::float_cmp)] // exact zeros, exact parabolas and mirror images are asserted on purpose
 mod tests {
     use super::*;
     use crate::orbit::forward;
@@ -117,6 +118,7 @@ mod tests {
     }
 
     /// Central finite differences of the forward map, per m/s, per deg, per m.
+    #[allow(clippy::needless_range_loop)]
     fn finite_difference(r: f64, v: f64, g: f64) -> [[f64; 3]; 5] {
         let hv = v * 1e-6;
         let hg = 1e-6;
@@ -140,6 +142,7 @@ mod tests {
     }
 
     #[test]
+    #[allow(clippy::needless_range_loop)]
     fn partials_match_central_differences_on_an_ellipse() {
         let (r, v, g) = (6_778_137.0, 8_200.0, 3f64.to_radians());
         let s = partials(MU, r, v, g);
@@ -172,5 +175,57 @@ mod tests {
     fn horizontal_burnout_at_periapsis_has_zero_periapsis_angle_partial() {
         let s = partials(MU, 6_778_137.0, 8_000.0, 0.0);
         assert_eq!(s.rows[0].unwrap()[1], 0.0);
+    }
+}
+
+#[cfg(test)]
+mod properties {
+    use super::*;
+    use crate::orbit::forward;
+    use crate::strategies::burnout_state;
+    use proptest::prelude::*;
+
+    fn values(mu: f64, r: f64, v: f64, g: f64) -> [f64; 5] {
+        let (c, _) = forward(mu, r, v, g).unwrap();
+        [
+            c.periapsis_radius_m(),
+            c.apoapsis_radius_m().unwrap_or(f64::NAN),
+            c.sma_m().unwrap_or(f64::NAN),
+            c.ecc(),
+            c.period_s(mu).unwrap_or(f64::NAN),
+        ]
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(1000))]
+
+        /// Each analytic partial against a central difference of the forward map.
+        #[test]
+        fn partials_match_central_differences((body, r, v, g) in burnout_state()) {
+            let mu = body.mu_m3_s2;
+            let (c, _) = forward(mu, r, v, g).unwrap();
+            // Stay away from the places where the partials do not exist or
+            // the differences straddle a change of conic type.
+            prop_assume!(c.ecc() > 1e-3 && (c.ecc() - 1.0).abs() > 1e-2 && g.abs() < 1.45);
+            let s = partials(mu, r, v, g);
+            let steps = [v * 1e-7, 1e-7, r * 1e-7];
+            let per = [1.0, std::f64::consts::PI / 180.0, 1.0];
+            for k in 0..3 {
+                let (mut xp, mut xm) = ([r, v, g], [r, v, g]);
+                let idx = [1, 2, 0][k];
+                xp[idx] += steps[k];
+                xm[idx] -= steps[k];
+                let fp = values(mu, xp[0], xp[1], xp[2]);
+                let fm = values(mu, xm[0], xm[1], xm[2]);
+                for i in 0..5 {
+                    let Some(row) = s.rows[i] else { continue };
+                    let fd = (fp[i] - fm[i]) / (2.0 * steps[k]) * per[k];
+                    let scale = [values(mu, r, v, g)[i].abs() / [v, 1.0, r][k] * per[k], fd.abs()]
+                        .into_iter().fold(0.0, f64::max);
+                    prop_assert!((row[k] - fd).abs() <= 1e-4 * scale + 1e-4 * fd.abs(),
+                        "d{}/d{}: analytic {} vs difference {}", ROWS[i], COLS[k], row[k], fd);
+                }
+            }
+        }
     }
 }

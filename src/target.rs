@@ -330,7 +330,7 @@ fn conic_from_size(mu: f64, x: &Target, s: &Target, alpha: f64) -> Result<Conic,
         }
         Q::Ecc => {
             if alpha == 0.0 {
-                if u == 1.0 {
+                if crate::orbit::exactly(u, 1.0) {
                     return Err(Error::Usage(format!(
                         "{} 1 and {} both say 'parabola' and leave its size free: give a periapsis or semi-latus rectum",
                         x.flag, s.flag
@@ -383,6 +383,7 @@ fn conic_from_size(mu: f64, x: &Target, s: &Target, alpha: f64) -> Result<Conic,
 }
 
 #[cfg(test)]
+#[allow(clippy::float_cmp)] // exact zeros, exact parabolas and mirror images are asserted on purpose
 mod tests {
     use super::*;
     use approx::assert_relative_eq;

@@ -45,6 +45,24 @@ impl DisplayUnits {
     }
 }
 
+/// Five significant digits, fixed-point where readable, never "-0".
+fn sig(x: f64) -> String {
+    if x == 0.0 || !x.is_finite() {
+        return if x.is_finite() {
+            "0".into()
+        } else {
+            format!("{x}")
+        };
+    }
+    let a = x.abs();
+    if (1e-3..1e6).contains(&a) {
+        let decimals = (4 - a.log10().floor() as i32).max(0) as usize;
+        format!("{x:.decimals$}")
+    } else {
+        format!("{x:.4e}")
+    }
+}
+
 fn fixed(x: f64, decimals: usize) -> String {
     format!("{x:.decimals$}")
 }
@@ -208,9 +226,9 @@ pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std:
                     out,
                     "  {:<16} {:>14} {:>14} {:>14}",
                     names[i],
-                    g(m[0] * vs * scale),
-                    g(m[1] * 0.1 * scale),
-                    g(m[2] * alt_step * scale)
+                    sig(m[0] * vs * scale),
+                    sig(m[1] * 0.1 * scale),
+                    sig(m[2] * alt_step * scale)
                 )?,
                 None => writeln!(
                     out,
