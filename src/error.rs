@@ -141,6 +141,17 @@ pub(crate) fn g(x: f64) -> String {
     }
 }
 
+/// Two values formatted so that they look different when they differ: ten
+/// significant digits, or every digit when ten would print them alike.
+pub(crate) fn distinct(a: f64, b: f64) -> (String, String) {
+    let (x, y) = (g(a), g(b));
+    if x == y && a.to_bits() != b.to_bits() {
+        (format!("{a:?}"), format!("{b:?}"))
+    } else {
+        (x, y)
+    }
+}
+
 impl fmt::Display for Error {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
@@ -163,7 +174,11 @@ impl fmt::Display for Error {
                 value,
                 unit,
                 expected,
-            } => write!(f, "{quantity} {} {unit} is out of range: expected {expected}", g(*value)),
+            } => {
+                let v = g(*value);
+                let shown = if unit.is_empty() { v } else { format!("{v} {unit}") };
+                write!(f, "{quantity} {shown} is out of range: expected {expected}")
+            }
             Error::Usage(msg) => f.write_str(msg),
             Error::BelowSurface {
                 burnout_radius_m,
@@ -178,21 +193,23 @@ impl fmt::Display for Error {
             Error::BelowPeriapsis {
                 burnout_radius_m,
                 periapsis_radius_m,
-            } => write!(
-                f,
-                "burnout radius {} m is below periapsis radius {} m: the target orbit never comes that low",
-                g(*burnout_radius_m),
-                g(*periapsis_radius_m)
-            ),
+            } => {
+                let (a, b) = distinct(*burnout_radius_m, *periapsis_radius_m);
+                write!(
+                    f,
+                    "burnout radius {a} m is below periapsis radius {b} m: the target orbit never comes that low"
+                )
+            }
             Error::AboveApoapsis {
                 burnout_radius_m,
                 apoapsis_radius_m,
-            } => write!(
-                f,
-                "burnout radius {} m is above apoapsis radius {} m: the target orbit never goes that high",
-                g(*burnout_radius_m),
-                g(*apoapsis_radius_m)
-            ),
+            } => {
+                let (a, b) = distinct(*burnout_radius_m, *apoapsis_radius_m);
+                write!(
+                    f,
+                    "burnout radius {a} m is above apoapsis radius {b} m: the target orbit never goes that high"
+                )
+            }
             Error::Infeasible(msg) => f.write_str(msg),
             Error::NoConvergence {
                 method,

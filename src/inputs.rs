@@ -112,6 +112,19 @@ fn get<'a>(inputs: &'a Inputs, key: &str) -> Option<&'a str> {
         .filter(|s| !s.trim().is_empty())
 }
 
+/// Re-states a range error as an error about the flag and the user's text.
+fn about_flag(inputs: &Inputs, key: &str, kind: Kind, e: Error) -> Error {
+    match e {
+        Error::InvalidValue { .. } => e,
+        other => Error::InvalidValue {
+            flag: format!("--{key}"),
+            text: get(inputs, key).unwrap_or("").to_string(),
+            kind: kind.name(),
+            reason: other.to_string(),
+        },
+    }
+}
+
 fn num(inputs: &Inputs, key: &str, kind: Kind) -> Result<Option<f64>, Error> {
     get(inputs, key)
         .map(|text| parse_si(&format!("--{key}"), text, kind))
@@ -151,28 +164,32 @@ pub fn body_from_inputs(inputs: &Inputs) -> Result<Body, Error> {
 /// text); [`Error::Usage`] for missing or conflicting inputs.
 pub fn problem_from_inputs(inputs: &Inputs) -> Result<Problem, Error> {
     let body = body_from_inputs(inputs)?;
+    let positive_radius = |key: &str, r: f64| -> Result<f64, Error> {
+        crate::error::positive("burnout radius", r, "m")
+            .map_err(|e| about_flag(inputs, key, Kind::Length, e))
+    };
     let burnout_radius_m = match (
         num(inputs, "burnout-alt", Kind::Length)?,
         num(inputs, "burnout-radius", Kind::Length)?,
     ) {
-        (Some(alt), None) => body.radius_m + alt,
-        (None, Some(r)) => r,
+        (Some(alt), None) => Some(positive_radius("burnout-alt", body.radius_m + alt)?),
+        (None, Some(r)) => Some(positive_radius("burnout-radius", r)?),
         (Some(_), Some(_)) => {
             return Err(Error::Usage(
                 "--burnout-alt and --burnout-radius both give the burnout point: give one".into(),
             ))
         }
-        (None, None) => {
-            return Err(Error::Usage(
-                "missing burnout point: give --burnout-alt or --burnout-radius".into(),
-            ))
-        }
+        (None, None) => None,
     };
     let mut targets = Vec::new();
     for (key, flag, quantity, kind, is_alt) in TARGET_KEYS {
         if let Some(v) = num(inputs, key, *kind)? {
             let value = if *is_alt { body.radius_m + v } else { v };
-            targets.push(Target::new(*quantity, value, flag));
+            let target = Target::new(*quantity, value, flag);
+            target
+                .validate()
+                .map_err(|e| about_flag(inputs, key, *kind, e))?;
+            targets.push(target);
         }
     }
     let flight_path_angle_rad = match (
@@ -183,15 +200,22 @@ pub fn problem_from_inputs(inputs: &Inputs) -> Result<Problem, Error> {
             "--fpa and --zenith both give the burnout direction: give one (fpa = 90 deg - zenith)"
                 .into(),
         )),
-        (Some(f), None) => Some(f),
+        (Some(f), None) => Some(
+            crate::orbit::check_fpa(f).map_err(|e| about_flag(inputs, "fpa", Kind::Angle, e))?,
+        ),
         (None, Some(z)) => {
             if !(0.0..=std::f64::consts::PI).contains(&z) {
-                return Err(Error::OutOfRange {
-                    quantity: "zenith angle",
-                    value: z.to_degrees(),
-                    unit: "deg",
-                    expected: "between 0 and 180 deg from the local vertical".into(),
-                });
+                return Err(about_flag(
+                    inputs,
+                    "zenith",
+                    Kind::Angle,
+                    Error::OutOfRange {
+                        quantity: "zenith angle",
+                        value: z.to_degrees(),
+                        unit: "deg",
+                        expected: "between 0 and 180 deg from the local vertical".into(),
+                    },
+                ));
             }
             Some(std::f64::consts::FRAC_PI_2 - z)
         }
@@ -202,7 +226,12 @@ pub fn problem_from_inputs(inputs: &Inputs) -> Result<Problem, Error> {
         burnout_radius_m,
         targets,
         flight_path_angle_rad,
-        speed_m_s: num(inputs, "speed", Kind::Speed)?,
+        speed_m_s: num(inputs, "speed", Kind::Speed)?
+            .map(|v| {
+                crate::error::positive("burnout speed", v, "m/s")
+                    .map_err(|e| about_flag(inputs, "speed", Kind::Speed, e))
+            })
+            .transpose()?,
         min_periapsis_alt_m: num(inputs, "min-periapsis-alt", Kind::Length)?,
     })
 }
@@ -227,7 +256,7 @@ mod tests {
             ("apoapsis-alt", "35786"),
         ]))
         .unwrap();
-        assert_relative_eq!(p.burnout_radius_m, 6_378_137.0 + 185_200.0);
+        assert_relative_eq!(p.burnout_radius_m.unwrap(), 6_378_137.0 + 185_200.0);
         assert_relative_eq!(p.targets[1].value, 6_378_137.0 + 35_786_000.0);
     }
 
@@ -248,10 +277,11 @@ mod tests {
 
     #[test]
     fn conflicts_and_missing_inputs_are_usage_errors() {
-        assert!(matches!(
-            problem_from_inputs(&inputs(&[("sma", "7000")])),
-            Err(Error::Usage(_))
-        ));
+        // A missing burnout point is left for solve() to judge (it may be free).
+        assert!(problem_from_inputs(&inputs(&[("sma", "7000")]))
+            .unwrap()
+            .burnout_radius_m
+            .is_none());
         assert!(matches!(
             problem_from_inputs(&inputs(&[("burnout-alt", "1"), ("burnout-radius", "7000")])),
             Err(Error::Usage(_))

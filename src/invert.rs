@@ -385,8 +385,18 @@ pub fn fpa_for_speed(
         _ => {}
     }
     let c3 = (v - v_esc) * (v + v_esc);
-    let energy = Target::new(Q::C3, c3, "--speed");
-    let conic = conic_from_pair(mu_m3_s2, target, &energy)?;
+    let energy = Target::new(Q::C3, c3, "the c3 of --speed");
+    let conic = conic_from_pair(mu_m3_s2, target, &energy).map_err(|e| match e {
+        Error::Infeasible(msg) => Error::Infeasible(format!(
+            "burnout speed {} m/s at burnout radius {} m cannot reach {} {} {}: {msg}",
+            g(v),
+            g(r),
+            target.flag,
+            g(target.value),
+            target.quantity.unit()
+        )),
+        other => other,
+    })?;
     let mut states = burnout_for_conic(mu_m3_s2, &conic, r)?;
     for st in &mut states {
         st.speed_m_s = v;

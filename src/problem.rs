@@ -7,7 +7,7 @@ use crate::feasibility::{check_state, Warning};
 use crate::invert::{
     burnout_for_conic, forward_state, fpa_for_speed, speed_for_target, BurnoutState,
 };
-use crate::sensitivity::{partials, Sensitivity};
+use crate::sensitivity::Sensitivity;
 use crate::target::{conic_from_pair, Target, TargetQuantity};
 
 /// A targeting problem in SI units.
@@ -15,8 +15,9 @@ use crate::target::{conic_from_pair, Target, TargetQuantity};
 pub struct Problem {
     /// The central body.
     pub body: Body,
-    /// Burnout radius from the body's centre, m.
-    pub burnout_radius_m: f64,
+    /// Burnout radius from the body's centre, m; `None` to solve for it
+    /// (needs speed and flight-path angle fixed).
+    pub burnout_radius_m: Option<f64>,
     /// Target quantities (radii measured from the centre).
     pub targets: Vec<Target>,
     /// Fixed flight-path angle at burnout, rad, if given.
@@ -57,7 +58,7 @@ pub struct SolverReport {
 pub struct Solved {
     /// The body.
     pub body: Body,
-    /// Burnout radius, m.
+    /// Burnout radius of the first solution, m.
     pub burnout_radius_m: f64,
     /// Every solution found, ascending branch first.
     pub solutions: Vec<Solution>,
@@ -117,13 +118,6 @@ pub fn achieved(mu_m3_s2: f64, state: &BurnoutState, q: TargetQuantity) -> Optio
 pub fn solve(problem: &Problem) -> Result<Solved, Error> {
     let body = &problem.body;
     let mu = body.mu_m3_s2;
-    let r = positive("burnout radius", problem.burnout_radius_m, "m")?;
-    if r < body.radius_m {
-        return Err(Error::BelowSurface {
-            burnout_radius_m: r,
-            surface_radius_m: body.radius_m,
-        });
-    }
     for t in &problem.targets {
         t.validate()?;
     }
@@ -132,6 +126,26 @@ pub fn solve(problem: &Problem) -> Result<Solved, Error> {
     }
     if let Some(fpa) = problem.flight_path_angle_rad {
         crate::orbit::check_fpa(fpa)?;
+    }
+    let Some(r) = problem.burnout_radius_m else {
+        if problem.speed_m_s.is_none() || problem.flight_path_angle_rad.is_none() {
+            return Err(Error::Usage(
+                "missing burnout point: give --burnout-alt or --burnout-radius (or --speed and --fpa with a target to solve for the burnout altitude)".into(),
+            ));
+        }
+        if problem.targets.is_empty() {
+            return Err(Error::Usage(
+                "--speed and --fpa without a burnout point need a target quantity to solve for the burnout altitude".into(),
+            ));
+        }
+        return crate::numeric::solve_numeric(problem);
+    };
+    let r = positive("burnout radius", r, "m")?;
+    if r < body.radius_m {
+        return Err(Error::BelowSurface {
+            burnout_radius_m: r,
+            surface_radius_m: body.radius_m,
+        });
     }
     let elements: Vec<&Target> = problem
         .targets
@@ -205,22 +219,22 @@ pub(crate) fn finish(
     if report.method == "closed-form" {
         report = closed_form_report(problem, states.first());
     }
-    let solutions = states
+    let solutions: Vec<Solution> = states
         .into_iter()
         .map(|state| Solution {
-            sensitivity: partials(
-                body.mu_m3_s2,
-                state.radius_m,
-                state.speed_m_s,
-                state.flight_path_angle_rad,
-            ),
+            sensitivity: crate::sensitivity::partials_for_state(body.mu_m3_s2, &state),
             warnings: check_state(body, &state, min_alt),
             state,
         })
         .collect();
+    let burnout_radius_m = solutions
+        .first()
+        .map(|s| s.state.radius_m)
+        .or(problem.burnout_radius_m)
+        .unwrap_or(f64::NAN);
     Solved {
         body: body.clone(),
-        burnout_radius_m: problem.burnout_radius_m,
+        burnout_radius_m,
         solutions,
         solver: report,
     }
@@ -241,7 +255,7 @@ mod tests {
     fn earth_problem(alt_m: f64, targets: Vec<Target>) -> Problem {
         let body = Body::from_name("earth").unwrap();
         Problem {
-            burnout_radius_m: body.radius_m + alt_m,
+            burnout_radius_m: Some(body.radius_m + alt_m),
             body,
             targets,
             flight_path_angle_rad: None,
@@ -283,13 +297,13 @@ mod tests {
     #[test]
     fn forward_problem_reports_orbit() {
         let mut p = earth_problem(200e3, vec![]);
-        let v = (p.body.mu_m3_s2 / p.burnout_radius_m).sqrt();
+        let v = (p.body.mu_m3_s2 / p.burnout_radius_m.unwrap()).sqrt();
         p.speed_m_s = Some(v);
         p.flight_path_angle_rad = Some(0.0);
         let s = solve(&p).unwrap();
         assert_relative_eq!(
             s.solutions[0].state.conic.periapsis_radius_m(),
-            p.burnout_radius_m,
+            p.burnout_radius_m.unwrap(),
             max_relative = 1e-14
         );
     }
@@ -322,7 +336,7 @@ mod tests {
         let v_inf: f64 = 2_943.0;
         let p = Problem {
             body,
-            burnout_radius_m: r,
+            burnout_radius_m: Some(r),
             targets: vec![
                 Target::new(Q::PeriapsisRadius, r, "--periapsis-radius"),
                 Target::new(Q::C3, v_inf * v_inf, "--c3"),
@@ -347,7 +361,7 @@ mod tests {
         let body = Body::custom(398_600e9, 6_378e3).unwrap();
         let p = Problem {
             body,
-            burnout_radius_m: 7_648e3,
+            burnout_radius_m: Some(7_648e3),
             targets: vec![],
             flight_path_angle_rad: Some(0.0),
             speed_m_s: Some(9_000.0),

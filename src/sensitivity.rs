@@ -97,6 +97,27 @@ pub fn partials(
     s
 }
 
+/// Partials for a solved state, with rows nulled by the state's own conic
+/// (the classification the user sees), not by an eccentricity recomputed from
+/// the rounded state: an exact parabola has no sma, apoapsis or period rows.
+pub fn partials_for_state(mu_m3_s2: f64, state: &crate::invert::BurnoutState) -> Sensitivity {
+    let mut s = partials(
+        mu_m3_s2,
+        state.radius_m,
+        state.speed_m_s,
+        state.flight_path_angle_rad,
+    );
+    let closed = state.conic.apoapsis_radius_m().is_some();
+    if !closed {
+        s.rows[1] = None;
+        s.rows[4] = None;
+    }
+    if state.conic.sma_m().is_none() {
+        s.rows[2] = None;
+    }
+    s
+}
+
 #[cfg(test)]
 #[allow(clippy::float_cmp)] // exact zeros, exact parabolas and mirror images are asserted on purpose
 mod tests {
@@ -162,6 +183,15 @@ mod tests {
                 );
             }
         }
+    }
+
+    #[test]
+    fn exact_parabola_has_null_sma_apoapsis_and_period_rows() {
+        let conic = crate::orbit::Conic::from_periapsis_ecc(6_578_137.0, 1.0).unwrap();
+        let st = crate::invert::burnout_for_conic(MU, &conic, 6_578_137.0).unwrap()[0];
+        let s = partials_for_state(MU, &st);
+        assert!(s.rows[1].is_none() && s.rows[2].is_none() && s.rows[4].is_none());
+        assert!(s.rows[0].is_some() && s.rows[3].is_some());
     }
 
     #[test]

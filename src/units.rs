@@ -74,6 +74,21 @@ impl Kind {
         }
     }
 
+    /// Largest accepted SI magnitude, and its unit: beyond it results would
+    /// overflow or be meaningless (lengths of 1e18 m are some 6.7 million au;
+    /// speeds and C3 are capped at the speed of light and its square).
+    pub fn max_si(self) -> (f64, &'static str) {
+        match self {
+            Kind::Length | Kind::AngleOrLength => (1e18, "m"),
+            Kind::Speed => (299_792_458.0, "m/s"),
+            Kind::Angle => (1e6, "rad"),
+            Kind::Time => (1e18, "s"),
+            Kind::C3 => (8.987_551_787_368_176e16, "m2/s2"),
+            Kind::Mu => (1e30, "m3/s2"),
+            Kind::Ratio => (1e9, ""),
+        }
+    }
+
     /// SI factor of a bare number of this kind.
     fn bare_factor(self) -> f64 {
         match self {
@@ -185,14 +200,31 @@ pub fn parse(flag: &str, text: &str, kind: Kind) -> Result<Parsed, Error> {
     if !value.is_finite() {
         return Err(fail("not a finite number".into()));
     }
+    let limit = |si: f64, k: Kind| -> Result<f64, Error> {
+        let (max, u) = k.max_si();
+        if si.abs() > max {
+            Err(fail(
+                format!(
+                    "magnitude {si:e} {u} is beyond the largest accepted {} {max:e} {u}",
+                    k.name()
+                )
+                .replace("  ", " ")
+                .trim_end()
+                .to_string(),
+            ))
+        } else {
+            Ok(si)
+        }
+    };
     if unit.is_empty() {
+        let k = if kind == Kind::AngleOrLength {
+            Kind::Angle
+        } else {
+            kind
+        };
         return Ok(Parsed {
-            si: value * kind.bare_factor(),
-            kind: if kind == Kind::AngleOrLength {
-                Kind::Angle
-            } else {
-                kind
-            },
+            si: limit(value * kind.bare_factor(), k)?,
+            kind: k,
         });
     }
     let accept: &[Kind] = if kind == Kind::AngleOrLength {
@@ -202,10 +234,7 @@ pub fn parse(flag: &str, text: &str, kind: Kind) -> Result<Parsed, Error> {
     };
     for k in accept {
         if let Some((_, f)) = k.units().iter().find(|(u, _)| *u == unit) {
-            let si = value * f;
-            if !si.is_finite() {
-                return Err(fail("magnitude overflows".into()));
-            }
+            let si = limit(value * f, *k)?;
             return Ok(Parsed { si, kind: *k });
         }
     }
@@ -301,6 +330,13 @@ mod tests {
         assert!(parse_si("--x", "1e400", Kind::Length).is_err());
         assert!(parse_si("--x", "", Kind::Length).is_err());
         assert!(parse_si("--ecc", "0.1 km", Kind::Ratio).is_err());
+        let e = parse_si("--apoapsis-alt", "1e300km", Kind::Length)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("--apoapsis-alt") && e.contains("largest accepted length"),
+            "{e}"
+        );
     }
 
     #[test]
