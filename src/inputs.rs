@@ -97,12 +97,102 @@ pub const KEYS: &[(&str, Kind)] = &[
     ("min-periapsis-alt", Kind::Length),
 ];
 
+/// Error-budget keys (case-file `[budget]` section and `burnout budget` flags).
+pub const BUDGET_KEYS: &[(&str, Kind)] = &[
+    ("speed-sigma", Kind::Speed),
+    ("fpa-sigma", Kind::Angle),
+    ("alt-sigma", Kind::Length),
+    ("speed-fpa-corr", Kind::Ratio),
+    ("speed-alt-corr", Kind::Ratio),
+    ("fpa-alt-corr", Kind::Ratio),
+    ("periapsis-tol", Kind::Length),
+    ("apoapsis-tol", Kind::Length),
+    ("sma-tol", Kind::Length),
+    ("ecc-tol", Kind::Ratio),
+    ("period-tol", Kind::Time),
+];
+
+/// Burnout errors and orbit tolerances given in the inputs, if any.
+///
+/// # Errors
+/// Unparseable values ([`Error::InvalidValue`] naming the flag); negative
+/// sigmas or non-positive tolerances.
+pub fn budget_from_inputs(
+    inputs: &Inputs,
+) -> Result<
+    (
+        Option<crate::budget::BurnoutErrors>,
+        Option<crate::budget::Tolerances>,
+    ),
+    Error,
+> {
+    let mut v = std::collections::HashMap::new();
+    for (key, kind) in BUDGET_KEYS {
+        if let Some(x) = num(inputs, key, *kind)? {
+            let bad = match *key {
+                k if k.ends_with("-corr") => !(-1.0..=1.0).contains(&x),
+                k if k.ends_with("-tol") => x <= 0.0,
+                _ => x < 0.0,
+            };
+            if bad {
+                return Err(Error::InvalidValue {
+                    flag: format!("--{key}"),
+                    text: get(inputs, key).unwrap_or("").to_string(),
+                    kind: kind.name(),
+                    reason: if key.ends_with("-corr") {
+                        "a correlation must be between -1 and 1".into()
+                    } else if key.ends_with("-tol") {
+                        "a tolerance must be positive".into()
+                    } else {
+                        "a 1-sigma error must be 0 or more".into()
+                    },
+                });
+            }
+            v.insert(*key, x);
+        }
+    }
+    let any_sigma = ["speed-sigma", "fpa-sigma", "alt-sigma"]
+        .iter()
+        .any(|k| v.contains_key(k));
+    let errors = any_sigma.then(|| crate::budget::BurnoutErrors {
+        speed_sigma_m_s: v.get("speed-sigma").copied().unwrap_or(0.0),
+        fpa_sigma_rad: v.get("fpa-sigma").copied().unwrap_or(0.0),
+        radius_sigma_m: v.get("alt-sigma").copied().unwrap_or(0.0),
+        correlations: [
+            v.get("speed-fpa-corr").copied().unwrap_or(0.0),
+            v.get("speed-alt-corr").copied().unwrap_or(0.0),
+            v.get("fpa-alt-corr").copied().unwrap_or(0.0),
+        ],
+    });
+    let tol_keys = [
+        "periapsis-tol",
+        "apoapsis-tol",
+        "sma-tol",
+        "ecc-tol",
+        "period-tol",
+    ];
+    let tolerances =
+        tol_keys
+            .iter()
+            .any(|k| v.contains_key(k))
+            .then(|| crate::budget::Tolerances {
+                rows: tol_keys.map(|k| v.get(k).copied()),
+            });
+    Ok((errors, tolerances))
+}
+
 /// Kind of the value of `key`, if it is a numeric input key.
 pub fn kind_of(key: &str) -> Option<Kind> {
     KEYS.iter()
         .find(|(k, _)| *k == key)
         .map(|(_, kind)| *kind)
         .or_else(|| TARGET_KEYS.iter().find(|t| t.0 == key).map(|t| t.3))
+        .or_else(|| {
+            BUDGET_KEYS
+                .iter()
+                .find(|(k, _)| *k == key)
+                .map(|(_, kind)| *kind)
+        })
 }
 
 fn get<'a>(inputs: &'a Inputs, key: &str) -> Option<&'a str> {

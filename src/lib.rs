@@ -24,6 +24,7 @@
 #![deny(clippy::float_cmp)]
 
 pub mod body;
+pub mod budget;
 pub mod case;
 pub mod error;
 pub mod feasibility;

@@ -997,3 +997,106 @@ mod tests {
         assert_eq!(e.class(), crate::ErrorClass::Infeasible);
     }
 }
+
+#[cfg(test)]
+mod properties {
+    use super::*;
+    use crate::orbit::Conic;
+    use crate::strategies::body;
+    use proptest::prelude::*;
+    use TargetQuantity as Q;
+
+    /// A target orbit away from the double roots (burnout at an apsis) where
+    /// a least-squares iteration can only converge like the square root of
+    /// its tolerance: burnout between 5% and 95% of the way from periapsis.
+    fn case() -> impl Strategy<Value = (Body, Conic, f64)> {
+        (
+            body(),
+            1.02f64..8.0,
+            prop_oneof![0.01f64..0.9, 1.1f64..4.0],
+            0.05f64..0.95,
+        )
+            .prop_map(|(b, k, e, u)| {
+                let rp = b.radius_m * k;
+                let conic = Conic::from_periapsis_ecc(rp, e).unwrap();
+                let r = match conic.apoapsis_radius_m() {
+                    Some(ra) => rp + u * (ra - rp),
+                    None => rp * (1.0 + 4.0 * u),
+                };
+                (b, conic, r)
+            })
+    }
+
+    fn pair(mu: f64, c: &Conic, which: usize) -> (Target, Target) {
+        let rp = Target::new(
+            Q::PeriapsisRadius,
+            c.periapsis_radius_m(),
+            "--periapsis-radius",
+        );
+        let e = Target::new(Q::Ecc, c.ecc(), "--ecc");
+        let c3 = Target::new(Q::C3, c.c3_m2_s2(mu), "--c3");
+        let p = Target::new(
+            Q::SemiLatusRectum,
+            c.semi_latus_rectum_m(),
+            "--semi-latus-rectum",
+        );
+        match (which, c.apoapsis_radius_m()) {
+            (0, Some(ra)) => (rp, Target::new(Q::ApoapsisRadius, ra, "--apoapsis-radius")),
+            (1, _) => (rp, e),
+            (2, _) => (rp, c3),
+            (3, Some(_)) => (
+                e,
+                Target::new(Q::Period, c.period_s(mu).unwrap(), "--period"),
+            ),
+            (3, None) => (e, Target::new(Q::Sma, c.sma_m().unwrap(), "--sma")),
+            _ => (e, p),
+        }
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(300))]
+
+        /// The numerical solver, started from a poor guess, lands on one of
+        /// the closed-form states to 1e-10 relative.
+        #[test]
+        fn numerical_solver_reproduces_closed_form_pairs(
+            (b, conic, r) in case(),
+            which in 0usize..5,
+            v_factor in 0.6f64..1.4,
+            g_deg in -30.0f64..30.0,
+        ) {
+            let mu = b.mu_m3_s2;
+            let (t1, t2) = pair(mu, &conic, which);
+            let exact = burnout_for_conic(mu, &conic, r).unwrap();
+            let problem = Problem {
+                body: b.clone(),
+                burnout_radius_m: Some(r),
+                targets: vec![t1, t2],
+                flight_path_angle_rad: None,
+                speed_m_s: None,
+                min_periapsis_alt_m: None,
+            };
+            let v0 = v_factor * exact[0].speed_m_s;
+            match solve_from(&problem, (r, v0, g_deg.to_radians())) {
+                Ok(s) => {
+                    let got = s.solutions[0].state;
+                    let hit = exact.iter().any(|x| {
+                        (got.speed_m_s - x.speed_m_s).abs() <= 1e-10 * x.speed_m_s
+                            && (got.flight_path_angle_rad - x.flight_path_angle_rad).abs()
+                                <= 1e-10 * x.flight_path_angle_rad.abs()
+                    });
+                    prop_assert!(hit, "got v {} fpa {} vs {:?}", got.speed_m_s, got.flight_path_angle_rad,
+                        exact.iter().map(|x| (x.speed_m_s, x.flight_path_angle_rad)).collect::<Vec<_>>());
+                }
+                // A single poor start may fail to converge; it must then say so
+                // (never a silent best effort), and the full multi-start solve
+                // must still find the answer.
+                Err(Error::NoConvergence { .. }) => {
+                    let s = solve_numeric(&problem).unwrap();
+                    prop_assert!(!s.solutions.is_empty());
+                }
+                Err(e) => prop_assert!(false, "unexpected error {e}"),
+            }
+        }
+    }
+}

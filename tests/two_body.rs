@@ -248,3 +248,45 @@ fn integrated_time_to_apoapsis_matches_keplers_equation() {
         );
     }
 }
+
+#[test]
+fn solver_answer_for_a_coast_time_reaches_apoapsis_at_that_time() {
+    // Numerically solved (no closed form): burnout at 220 km for a 1200 km
+    // apoapsis reached after a 45 min coast. Integrating the two-body
+    // equations for 45 min from each solution must end at apoapsis.
+    use burnout::problem::{solve, Problem};
+    use burnout::target::{Target, TargetQuantity};
+    let body = Body::from_name("earth").unwrap();
+    let mu = body.mu_m3_s2;
+    let ra = body.radius_m + 1_200e3;
+    let tof = 45.0 * 60.0;
+    let problem = Problem {
+        burnout_radius_m: Some(body.radius_m + 220e3),
+        targets: vec![
+            Target::new(TargetQuantity::ApoapsisRadius, ra, "--apoapsis-alt"),
+            Target::new(TargetQuantity::TimeToApoapsis, tof, "--time-to-apoapsis"),
+        ],
+        flight_path_angle_rad: None,
+        speed_m_s: None,
+        min_periapsis_alt_m: None,
+        body,
+    };
+    let solved = solve(&problem).unwrap();
+    assert_eq!(
+        solved.solutions.len(),
+        2,
+        "one ascending and one descending root"
+    );
+    for s in &solved.solutions {
+        let st = &s.state;
+        let y0 = burnout_state(st.radius_m, st.speed_m_s, st.flight_path_angle_rad);
+        let (y, _) = propagate(mu, y0, tof, 1e-13);
+        assert_relative_eq!(radius(&y), ra, max_relative = 1e-9);
+        let v_apo = st.conic.angular_momentum_m2_s(mu) / ra;
+        assert!(
+            radial_speed(&y).abs() < 1e-6 * v_apo,
+            "vr {}",
+            radial_speed(&y)
+        );
+    }
+}

@@ -1,5 +1,6 @@
 //! Command-line layer: clap definitions and dispatch. Belongs to the binary.
 
+pub mod budget;
 pub mod solve;
 
 use burnout::case::{overlay, parse_case};
@@ -18,9 +19,12 @@ pub struct Cli {
 
 /// Subcommands.
 #[derive(Subcommand, Debug)]
+#[allow(clippy::large_enum_variant)] // parsed once per run; boxing buys nothing
 pub enum Command {
     /// Solve one targeting problem: burnout speed and flight-path angle for a target orbit.
     Solve(solve::Args),
+    /// Error budget: orbit errors from burnout errors, and burnout errors allowed by orbit tolerances.
+    Budget(budget::Args),
 }
 
 /// Output format.
@@ -179,6 +183,7 @@ impl ProblemArgs {
 pub fn run(cli: Cli) -> Result<i32, Error> {
     match cli.command {
         Command::Solve(args) => solve::run(args),
+        Command::Budget(args) => budget::run(args),
     }
 }
 

@@ -31,9 +31,10 @@ fn json_problems(path: &str) -> Vec<String> {
         out.push("no solutions".to_string());
     }
     let (mu, r_bo) = (num(&doc, "/body/mu_m3_s2"), num(&doc, "/burnout_radius_m"));
-    // 1/a is 0 for a parabola, whose sma is null.
-    let inv_sma = doc["orbit"]["sma_m"].as_f64().map_or(0.0, |a| 1.0 / a);
     for sol in solutions(&doc) {
+        // Each solution carries its own orbit (two speeds can mean two
+        // orbits); 1/a is 0 for a parabola, whose sma is null.
+        let inv_sma = sol["orbit"]["sma_m"].as_f64().map_or(0.0, |a| 1.0 / a);
         let v = sol["speed_m_s"].as_f64().unwrap_or(f64::NAN);
         if !(v.is_finite() && v > 0.0) {
             out.push(format!("speed {v} is not finite and positive"));

@@ -7,6 +7,7 @@
 //! keys, exit codes).
 
 mod bad_input;
+mod budget;
 mod cases;
 mod solve;
 

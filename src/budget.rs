@@ -1,0 +1,585 @@
+//! Error budget: linear mapping of burnout errors into orbit errors
+//! (C = J P J^T), and the inverse question: how large may each burnout error
+//! be for the orbit to stay within given tolerances.
+//!
+//! Burnout errors are ordered (speed m/s, flight-path angle rad, burnout
+//! radius m); orbit rows are (periapsis radius m, apoapsis radius m, sma m,
+//! ecc, period s), as in [`crate::sensitivity`].
+
+use crate::error::{g, Error};
+use crate::invert::{forward_state, BurnoutState};
+use crate::sensitivity::{partials_per_rad, ROWS};
+use argmin::core::{CostFunction, Executor, State};
+use argmin::solver::brent::BrentRoot;
+use nalgebra::{Matrix3, SymmetricEigen, Vector3};
+
+/// Names of the burnout error components (machine keys, SI units; the angle
+/// is reported in degrees at the edges).
+pub const COMPONENTS: [&str; 3] = ["speed_m_s", "flight_path_angle_deg", "burnout_radius_m"];
+
+/// 1-sigma burnout errors and their correlations.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct BurnoutErrors {
+    /// 1-sigma speed error, m/s.
+    pub speed_sigma_m_s: f64,
+    /// 1-sigma flight-path angle error, rad.
+    pub fpa_sigma_rad: f64,
+    /// 1-sigma burnout radius (altitude) error, m.
+    pub radius_sigma_m: f64,
+    /// Correlation coefficients (speed-fpa, speed-radius, fpa-radius), each in [-1, 1].
+    pub correlations: [f64; 3],
+}
+
+impl BurnoutErrors {
+    /// The covariance matrix P (units m/s, rad, m).
+    ///
+    /// # Errors
+    /// Negative sigmas, correlations outside [-1, 1], or a matrix that is not
+    /// positive semi-definite.
+    pub fn covariance(&self) -> Result<Matrix3<f64>, Error> {
+        let s = [
+            self.speed_sigma_m_s,
+            self.fpa_sigma_rad,
+            self.radius_sigma_m,
+        ];
+        let names = ["speed sigma", "flight-path angle sigma", "altitude sigma"];
+        for (v, n) in s.iter().zip(names) {
+            if !v.is_finite() || *v < 0.0 {
+                return Err(Error::OutOfRange {
+                    quantity: n,
+                    value: *v,
+                    unit: "",
+                    expected: "a finite value of 0 or more".into(),
+                });
+            }
+        }
+        let corr_names = [
+            "speed-fpa correlation",
+            "speed-alt correlation",
+            "fpa-alt correlation",
+        ];
+        for (c, n) in self.correlations.iter().zip(corr_names) {
+            if !c.is_finite() || c.abs() > 1.0 {
+                return Err(Error::OutOfRange {
+                    quantity: n,
+                    value: *c,
+                    unit: "",
+                    expected: "between -1 and 1".into(),
+                });
+            }
+        }
+        let [c01, c02, c12] = self.correlations;
+        let p = Matrix3::new(
+            s[0] * s[0],
+            c01 * s[0] * s[1],
+            c02 * s[0] * s[2],
+            c01 * s[0] * s[1],
+            s[1] * s[1],
+            c12 * s[1] * s[2],
+            c02 * s[0] * s[2],
+            c12 * s[1] * s[2],
+            s[2] * s[2],
+        );
+        let eig = SymmetricEigen::new(p);
+        let scale = p.diagonal().max();
+        if eig.eigenvalues.min() < -1e-12 * scale {
+            return Err(Error::Infeasible(format!(
+                "the correlations ({}, {}, {}) do not form a valid covariance (not positive semi-definite)",
+                g(c01),
+                g(c02),
+                g(c12)
+            )));
+        }
+        Ok(p)
+    }
+}
+
+/// The orbit's 1-sigma error in one quantity.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RowError {
+    /// Orbit quantity key (see [`ROWS`]).
+    pub quantity: &'static str,
+    /// 1-sigma error in the quantity's SI unit.
+    pub one_sigma: f64,
+    /// 3-sigma error.
+    pub three_sigma: f64,
+    /// The burnout error component that contributes most variance (of
+    /// [`COMPONENTS`]), and its share of the variance when taken alone.
+    pub dominant: &'static str,
+    /// Share (0..1) of the dominant component's own variance contribution
+    /// in the sum of the three components' own contributions.
+    pub dominant_share: f64,
+}
+
+/// Maps burnout errors through the sensitivity matrix: the 1-sigma and
+/// 3-sigma orbit errors (J P J^T) and the dominant contributor of each.
+/// Rows that do not exist for the orbit (apoapsis of an open orbit) are skipped.
+///
+/// # Errors
+/// As [`BurnoutErrors::covariance`].
+pub fn map_errors(
+    mu_m3_s2: f64,
+    state: &BurnoutState,
+    errors: &BurnoutErrors,
+) -> Result<Vec<RowError>, Error> {
+    let p = errors.covariance()?;
+    let sens = crate::sensitivity::partials_for_state(mu_m3_s2, state);
+    let per_rad = partials_per_rad(
+        mu_m3_s2,
+        state.radius_m,
+        state.speed_m_s,
+        state.flight_path_angle_rad,
+    );
+    let sig = [
+        errors.speed_sigma_m_s,
+        errors.fpa_sigma_rad,
+        errors.radius_sigma_m,
+    ];
+    let mut out = Vec::new();
+    for (i, row) in per_rad.rows.iter().enumerate() {
+        let (Some(j), Some(_)) = (row, sens.rows[i]) else {
+            continue;
+        };
+        let jv = Vector3::new(j[0], j[1], j[2]);
+        let var = (jv.transpose() * p * jv)[(0, 0)].max(0.0);
+        let own: Vec<f64> = (0..3).map(|k| (j[k] * sig[k]).powi(2)).collect();
+        let total: f64 = own.iter().sum();
+        let (k, best) =
+            own.iter().enumerate().fold(
+                (0, -1.0),
+                |acc, (k, v)| if *v > acc.1 { (k, *v) } else { acc },
+            );
+        out.push(RowError {
+            quantity: ROWS[i],
+            one_sigma: var.sqrt(),
+            three_sigma: 3.0 * var.sqrt(),
+            dominant: COMPONENTS[k],
+            dominant_share: if total > 0.0 { best / total } else { 0.0 },
+        });
+    }
+    Ok(out)
+}
+
+/// Tolerances (half-widths) on orbit quantities; `None` means unconstrained.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct Tolerances {
+    /// Indexed like [`ROWS`]: periapsis m, apoapsis m, sma m, ecc, period s.
+    pub rows: [Option<f64>; 5],
+}
+
+/// The largest error allowed in one burnout quantity alone.
+#[derive(Debug, Clone, PartialEq)]
+pub struct AllowedError {
+    /// Burnout component (of [`COMPONENTS`]).
+    pub component: &'static str,
+    /// Linear estimate: min over constrained rows of tol / |partial|, in SI
+    /// (m/s, rad, m); infinite when no constrained row depends on it.
+    pub linear: f64,
+    /// Exact largest negative excursion from the nonlinear forward map (a
+    /// positive number), SI.
+    pub minus: f64,
+    /// Exact largest positive excursion, SI.
+    pub plus: f64,
+    /// The orbit quantity whose tolerance binds first (linear estimate).
+    pub limited_by: Option<&'static str>,
+}
+
+/// One principal axis of the allowed joint-error ellipsoid.
+#[derive(Debug, Clone, PartialEq)]
+pub struct EllipsoidAxis {
+    /// Half-length along the unit direction, in the scaled space where the
+    /// components are (m/s, rad, m); infinite when unconstrained.
+    pub half_length: f64,
+    /// Unit direction (speed, angle, radius components).
+    pub direction: [f64; 3],
+}
+
+/// The inverse answer: allowed burnout errors for given orbit tolerances.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Allowed {
+    /// Per burnout quantity, alone.
+    pub alone: Vec<AllowedError>,
+    /// The joint region sum_i (J_i dx / tol_i)^2 <= 1: it lies inside every
+    /// tolerance slab, so any error inside it keeps every quantity within
+    /// tolerance. Principal axes, longest first.
+    pub ellipsoid_axes: Vec<EllipsoidAxis>,
+    /// Largest excursion of each component over the ellipsoid (SI); infinite
+    /// when unbounded.
+    pub ellipsoid_extent: [f64; 3],
+}
+
+/// Orbit values (rows) from a burnout state, for the nonlinear checks.
+fn row_values(mu: f64, r: f64, v: f64, gamma: f64) -> Option<[Option<f64>; 5]> {
+    let st = forward_state(mu, r, v, gamma).ok()?;
+    let c = st.conic;
+    Some([
+        Some(c.periapsis_radius_m()),
+        c.apoapsis_radius_m(),
+        c.sma_m(),
+        Some(c.ecc()),
+        c.period_s(mu),
+    ])
+}
+
+/// Worst tolerance ratio max_i |row_i(x + d e_k) - row_i(x)| / tol_i minus 1.
+struct Edge<'a> {
+    mu: f64,
+    base: [f64; 3],
+    nominal: [Option<f64>; 5],
+    tol: &'a Tolerances,
+    component: usize,
+    sign: f64,
+}
+
+impl Edge<'_> {
+    fn ratio_minus_one(&self, d: f64) -> f64 {
+        let mut x = self.base;
+        x[self.component] += self.sign * d;
+        let Some(vals) = row_values(self.mu, x[0], x[1], x[2]) else {
+            return f64::INFINITY;
+        };
+        let mut worst: f64 = 0.0;
+        for ((tol, nominal), value) in self.tol.rows.iter().zip(&self.nominal).zip(&vals) {
+            if let (Some(t), Some(n)) = (tol, nominal) {
+                match value {
+                    Some(v) => worst = worst.max((v - n).abs() / t),
+                    None => return f64::INFINITY,
+                }
+            }
+        }
+        worst - 1.0
+    }
+}
+
+impl CostFunction for Edge<'_> {
+    type Param = f64;
+    type Output = f64;
+    fn cost(&self, d: &f64) -> Result<f64, argmin::core::Error> {
+        let r = self.ratio_minus_one(*d);
+        Ok(if r.is_finite() { r } else { 1e30 })
+    }
+}
+
+/// Finds the exact excursion where the first tolerance is met, starting from
+/// the linear estimate: expand until outside, then Brent's root.
+fn exact_edge(edge: &Edge, linear: f64, limit: f64) -> f64 {
+    if !linear.is_finite() {
+        return f64::INFINITY;
+    }
+    let mut lo = 0.0;
+    let mut hi = linear.min(limit);
+    let mut k = 0;
+    while edge.ratio_minus_one(hi) < 0.0 {
+        lo = hi;
+        hi *= 1.5;
+        k += 1;
+        if k > 60 || hi > limit {
+            return f64::INFINITY;
+        }
+    }
+    // Shrink lo if the linear guess already overshoots far.
+    while edge.ratio_minus_one(lo) > 0.0 && lo > 0.0 {
+        lo *= 0.5;
+    }
+    let solver = BrentRoot::new(lo, hi, 1e-15);
+    match Executor::new(edge_clone(edge), solver)
+        .configure(|s| s.param(0.5 * (lo + hi)).max_iters(200))
+        .run()
+    {
+        Ok(res) => res.state().get_best_param().copied().unwrap_or(f64::NAN),
+        Err(_) => f64::NAN,
+    }
+}
+
+fn edge_clone<'a>(e: &Edge<'a>) -> Edge<'a> {
+    Edge {
+        mu: e.mu,
+        base: e.base,
+        nominal: e.nominal,
+        tol: e.tol,
+        component: e.component,
+        sign: e.sign,
+    }
+}
+
+/// The largest burnout errors allowed for the orbit to stay within `tol`.
+///
+/// # Errors
+/// [`Error::Usage`] when no tolerance is given; [`Error::OutOfRange`] for a
+/// non-positive tolerance.
+pub fn allowed_errors(
+    mu_m3_s2: f64,
+    state: &BurnoutState,
+    tol: &Tolerances,
+) -> Result<Allowed, Error> {
+    if tol.rows.iter().all(Option::is_none) {
+        return Err(Error::Usage(
+            "no orbit tolerance given (e.g. --apoapsis-tol 50km)".into(),
+        ));
+    }
+    for (i, t) in tol.rows.iter().enumerate() {
+        if let Some(t) = t {
+            if !(t.is_finite() && *t > 0.0) {
+                return Err(Error::OutOfRange {
+                    quantity: "tolerance",
+                    value: *t,
+                    unit: "",
+                    expected: format!("a positive tolerance on {}", ROWS[i]),
+                });
+            }
+        }
+    }
+    let sens = crate::sensitivity::partials_for_state(mu_m3_s2, state);
+    let per_rad = partials_per_rad(
+        mu_m3_s2,
+        state.radius_m,
+        state.speed_m_s,
+        state.flight_path_angle_rad,
+    );
+    let nominal = row_values(
+        mu_m3_s2,
+        state.radius_m,
+        state.speed_m_s,
+        state.flight_path_angle_rad,
+    )
+    .unwrap_or([None; 5]);
+    // Base in (r, v, gamma) order for row_values; components are (v, gamma, r).
+    let base = [state.radius_m, state.speed_m_s, state.flight_path_angle_rad];
+    let component_index = [1usize, 2, 0];
+    let limits = [state.speed_m_s, std::f64::consts::FRAC_PI_2, state.radius_m];
+    let mut alone = Vec::new();
+    let mut m = Matrix3::zeros();
+    for (i, row) in per_rad.rows.iter().enumerate() {
+        if let (Some(j), Some(t), Some(_)) = (row, tol.rows[i], sens.rows[i]) {
+            let jv = Vector3::new(j[0], j[1], j[2]) / t;
+            m += jv * jv.transpose();
+        }
+    }
+    for k in 0..3 {
+        let mut linear = f64::INFINITY;
+        let mut limited_by = None;
+        for (i, row) in per_rad.rows.iter().enumerate() {
+            if let (Some(j), Some(t), Some(_)) = (row, tol.rows[i], sens.rows[i]) {
+                let d = t / j[k].abs();
+                if d < linear {
+                    linear = d;
+                    limited_by = Some(ROWS[i]);
+                }
+            }
+        }
+        let mk = |sign: f64| Edge {
+            mu: mu_m3_s2,
+            base,
+            nominal,
+            tol,
+            component: component_index[k],
+            sign,
+        };
+        alone.push(AllowedError {
+            component: COMPONENTS[k],
+            linear,
+            minus: exact_edge(&mk(-1.0), linear, limits[k]),
+            plus: exact_edge(&mk(1.0), linear, limits[k]),
+            limited_by,
+        });
+    }
+    let eig = SymmetricEigen::new(m);
+    let scale = eig.eigenvalues.max().max(f64::MIN_POSITIVE);
+    let mut axes: Vec<EllipsoidAxis> = (0..3)
+        .map(|k| {
+            let lam = eig.eigenvalues[k];
+            let dir = eig.eigenvectors.column(k);
+            EllipsoidAxis {
+                half_length: if lam > 1e-12 * scale {
+                    1.0 / lam.sqrt()
+                } else {
+                    f64::INFINITY
+                },
+                direction: [dir[0], dir[1], dir[2]],
+            }
+        })
+        .collect();
+    axes.sort_by(|a, b| b.half_length.total_cmp(&a.half_length));
+    let extent = match m.try_inverse() {
+        Some(inv) if axes.iter().all(|a| a.half_length.is_finite()) => {
+            [inv[(0, 0)].sqrt(), inv[(1, 1)].sqrt(), inv[(2, 2)].sqrt()]
+        }
+        _ => [f64::INFINITY; 3],
+    };
+    Ok(Allowed {
+        alone,
+        ellipsoid_axes: axes,
+        ellipsoid_extent: extent,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::body::Body;
+    use crate::invert::burnout_for_conic;
+    use crate::orbit::Conic;
+    use approx::assert_relative_eq;
+    use rand::SeedableRng;
+    use rand_distr::{Distribution, StandardNormal};
+
+    fn gto_state() -> (f64, BurnoutState) {
+        let b = Body::from_name("earth").unwrap();
+        let c = Conic::from_apsides(b.radius_m + 185e3, b.radius_m + 35_786e3).unwrap();
+        let st = burnout_for_conic(b.mu_m3_s2, &c, b.radius_m + 400e3).unwrap()[0];
+        (b.mu_m3_s2, st)
+    }
+
+    #[test]
+    fn linear_mapping_agrees_with_monte_carlo_of_the_forward_map() {
+        // 100,000 seeded samples of correlated burnout errors through the
+        // nonlinear forward map; the sample standard deviation of each orbit
+        // quantity must match the linear J P J^T prediction within sampling
+        // error (relative standard error of a std estimate is 1/sqrt(2N) =
+        // 0.22%; we allow 1%, about 4.5 standard errors).
+        let (mu, st) = gto_state();
+        let errors = BurnoutErrors {
+            speed_sigma_m_s: 0.5,
+            fpa_sigma_rad: 0.01f64.to_radians(),
+            radius_sigma_m: 200.0,
+            correlations: [0.3, -0.2, 0.1],
+        };
+        let predicted = map_errors(mu, &st, &errors).unwrap();
+        let p = errors.covariance().unwrap();
+        let l = p.cholesky().unwrap().l();
+        let mut rng = rand::rngs::StdRng::seed_from_u64(20261202);
+        let nominal = row_values(mu, st.radius_m, st.speed_m_s, st.flight_path_angle_rad).unwrap();
+        const N: usize = 100_000;
+        let mut sum = [0.0f64; 5];
+        let mut sum2 = [0.0f64; 5];
+        for _ in 0..N {
+            let z = Vector3::new(
+                StandardNormal.sample(&mut rng),
+                StandardNormal.sample(&mut rng),
+                StandardNormal.sample(&mut rng),
+            );
+            let d = l * z;
+            let vals = row_values(
+                mu,
+                st.radius_m + d[2],
+                st.speed_m_s + d[0],
+                st.flight_path_angle_rad + d[1],
+            )
+            .unwrap();
+            for i in 0..5 {
+                let x = vals[i].unwrap() - nominal[i].unwrap();
+                sum[i] += x;
+                sum2[i] += x * x;
+            }
+        }
+        for (i, row) in predicted.iter().enumerate() {
+            let mean = sum[i] / N as f64;
+            let std = (sum2[i] / N as f64 - mean * mean).sqrt();
+            assert_relative_eq!(std, row.one_sigma, max_relative = 1e-2);
+        }
+    }
+
+    #[test]
+    fn dominant_error_is_named() {
+        let (mu, st) = gto_state();
+        let errors = BurnoutErrors {
+            speed_sigma_m_s: 10.0,
+            fpa_sigma_rad: 1e-9,
+            radius_sigma_m: 1.0,
+            correlations: [0.0; 3],
+        };
+        let rows = map_errors(mu, &st, &errors).unwrap();
+        let apo = rows
+            .iter()
+            .find(|r| r.quantity == "apoapsis_radius_m")
+            .unwrap();
+        assert_eq!(apo.dominant, "speed_m_s");
+        assert!(apo.dominant_share > 0.99);
+    }
+
+    #[test]
+    fn allowed_errors_land_on_the_tolerance_edges() {
+        let (mu, st) = gto_state();
+        let tol = Tolerances {
+            rows: [Some(5e3), Some(50e3), None, None, None],
+        };
+        let a = allowed_errors(mu, &st, &tol).unwrap();
+        let base = [st.radius_m, st.speed_m_s, st.flight_path_angle_rad];
+        let nominal = row_values(mu, base[0], base[1], base[2]).unwrap();
+        let idx = [1usize, 2, 0];
+        for (k, al) in a.alone.iter().enumerate() {
+            for (sign, d) in [(-1.0, al.minus), (1.0, al.plus)] {
+                let mut x = base;
+                x[idx[k]] += sign * d;
+                let vals = row_values(mu, x[0], x[1], x[2]).unwrap();
+                let worst = (0..2)
+                    .map(|i| (vals[i].unwrap() - nominal[i].unwrap()).abs() / tol.rows[i].unwrap())
+                    .fold(0.0, f64::max);
+                // The exact edge: the binding tolerance is met, to root-finder accuracy.
+                assert_relative_eq!(worst, 1.0, max_relative = 1e-9);
+            }
+            // Small tolerances: the linear estimate is close to the exact edges.
+            assert_relative_eq!(al.linear, al.plus.min(al.minus), max_relative = 5e-2);
+        }
+    }
+
+    #[test]
+    fn ellipsoid_lies_inside_every_tolerance_slab() {
+        let (mu, st) = gto_state();
+        let tol = Tolerances {
+            rows: [Some(5e3), Some(50e3), None, Some(1e-3), None],
+        };
+        let a = allowed_errors(mu, &st, &tol).unwrap();
+        let j = partials_per_rad(mu, st.radius_m, st.speed_m_s, st.flight_path_angle_rad);
+        // rp, ra and e are dependent (e = (ra - rp)/(ra + rp)), so to first
+        // order one direction of burnout error leaves all three unchanged: its
+        // axis is unbounded, and moving along it changes nothing.
+        assert_eq!(
+            a.ellipsoid_axes
+                .iter()
+                .filter(|x| x.half_length.is_infinite())
+                .count(),
+            1
+        );
+        for axis in &a.ellipsoid_axes {
+            let len = if axis.half_length.is_finite() {
+                axis.half_length
+            } else {
+                1.0
+            };
+            let d = axis.direction.map(|c| c * len);
+            if axis.half_length.is_infinite() {
+                for i in [0usize, 1, 3] {
+                    let row = j.rows[i].unwrap();
+                    let scale = row.iter().map(|x| x.abs()).fold(0.0, f64::max);
+                    assert!((row[0] * d[0] + row[1] * d[1] + row[2] * d[2]).abs() <= 1e-6 * scale);
+                }
+                continue;
+            }
+            for i in [0usize, 1, 3] {
+                let row = j.rows[i].unwrap();
+                let change = row[0] * d[0] + row[1] * d[1] + row[2] * d[2];
+                assert!(
+                    change.abs() <= tol.rows[i].unwrap() * (1.0 + 1e-9),
+                    "row {i}: {change}"
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn invalid_correlation_is_rejected() {
+        let e = BurnoutErrors {
+            speed_sigma_m_s: 1.0,
+            fpa_sigma_rad: 1.0,
+            radius_sigma_m: 1.0,
+            correlations: [0.99, -0.99, 0.99],
+        };
+        assert!(e.covariance().is_err());
+        let e2 = BurnoutErrors {
+            correlations: [1.5, 0.0, 0.0],
+            ..e
+        };
+        assert!(matches!(e2.covariance(), Err(Error::OutOfRange { .. })));
+    }
+}

@@ -1,0 +1,142 @@
+//! `burnout budget`: burnout error budget for a solved targeting problem.
+
+use super::{Format, ProblemArgs};
+use burnout::budget::{allowed_errors, map_errors};
+use burnout::case::overlay;
+use burnout::inputs::{budget_from_inputs, problem_from_inputs, Inputs};
+use burnout::report::budget::{write_json, write_table, BudgetReport};
+use burnout::Error;
+
+/// Arguments of `burnout budget`.
+#[derive(clap::Args, Debug)]
+pub struct Args {
+    #[command(flatten)]
+    problem: ProblemArgs,
+    /// 1-sigma burnout speed error (bare: km/s).
+    #[arg(long, allow_hyphen_values = true)]
+    speed_sigma: Option<String>,
+    /// 1-sigma flight-path angle error (bare: deg).
+    #[arg(long, allow_hyphen_values = true)]
+    fpa_sigma: Option<String>,
+    /// 1-sigma burnout altitude error (bare: km).
+    #[arg(long, allow_hyphen_values = true)]
+    alt_sigma: Option<String>,
+    /// Correlation of speed and flight-path angle errors, -1..1.
+    #[arg(long, allow_hyphen_values = true)]
+    speed_fpa_corr: Option<String>,
+    /// Correlation of speed and altitude errors, -1..1.
+    #[arg(long, allow_hyphen_values = true)]
+    speed_alt_corr: Option<String>,
+    /// Correlation of flight-path angle and altitude errors, -1..1.
+    #[arg(long, allow_hyphen_values = true)]
+    fpa_alt_corr: Option<String>,
+    /// Allowed periapsis error, +/- (bare: km).
+    #[arg(long, allow_hyphen_values = true)]
+    periapsis_tol: Option<String>,
+    /// Allowed apoapsis error, +/- (bare: km).
+    #[arg(long, allow_hyphen_values = true)]
+    apoapsis_tol: Option<String>,
+    /// Allowed semi-major axis error, +/- (bare: km).
+    #[arg(long, allow_hyphen_values = true)]
+    sma_tol: Option<String>,
+    /// Allowed eccentricity error, +/-.
+    #[arg(long, allow_hyphen_values = true)]
+    ecc_tol: Option<String>,
+    /// Allowed period error, +/- (bare: s).
+    #[arg(long, allow_hyphen_values = true)]
+    period_tol: Option<String>,
+    /// Which solution(s) to analyse.
+    #[arg(long, value_enum, default_value_t = BranchArg::Both)]
+    branch: BranchArg,
+    /// Output format (table or json).
+    #[arg(long, value_enum, default_value_t = Format::Table)]
+    format: Format,
+}
+
+/// Branch selection.
+#[derive(clap::ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+pub enum BranchArg {
+    /// Ascending solutions only.
+    Ascending,
+    /// Descending solutions only.
+    Descending,
+    /// Every solution.
+    Both,
+}
+
+/// Runs the budget; returns the exit code.
+pub fn run(args: Args) -> Result<i32, Error> {
+    let mut flags: Inputs = Inputs::new();
+    for (k, v) in [
+        ("speed-sigma", &args.speed_sigma),
+        ("fpa-sigma", &args.fpa_sigma),
+        ("alt-sigma", &args.alt_sigma),
+        ("speed-fpa-corr", &args.speed_fpa_corr),
+        ("speed-alt-corr", &args.speed_alt_corr),
+        ("fpa-alt-corr", &args.fpa_alt_corr),
+        ("periapsis-tol", &args.periapsis_tol),
+        ("apoapsis-tol", &args.apoapsis_tol),
+        ("sma-tol", &args.sma_tol),
+        ("ecc-tol", &args.ecc_tol),
+        ("period-tol", &args.period_tol),
+    ] {
+        if let Some(v) = v {
+            flags.insert(k.to_string(), v.clone());
+        }
+    }
+    let inputs = overlay(args.problem.inputs()?, &flags);
+    let (errors, tolerances) = budget_from_inputs(&inputs)?;
+    if errors.is_none() && tolerances.is_none() {
+        return Err(Error::Usage(
+            "nothing to budget: give burnout errors (--speed-sigma, --fpa-sigma, --alt-sigma) and/or orbit tolerances (--periapsis-tol, --apoapsis-tol, ...)".into(),
+        ));
+    }
+    let problem = problem_from_inputs(&inputs)?;
+    let solved = burnout::solve(&problem)?;
+    let mu = solved.body.mu_m3_s2;
+    let mut reports = Vec::new();
+    for s in &solved.solutions {
+        let keep = match args.branch {
+            BranchArg::Both => true,
+            BranchArg::Ascending => s.state.branch == burnout::invert::Branch::Ascending,
+            BranchArg::Descending => s.state.branch == burnout::invert::Branch::Descending,
+        };
+        if !keep {
+            continue;
+        }
+        reports.push(BudgetReport {
+            solution: s,
+            mapped: errors
+                .as_ref()
+                .map(|e| map_errors(mu, &s.state, e))
+                .transpose()?,
+            allowed: tolerances
+                .as_ref()
+                .map(|t| allowed_errors(mu, &s.state, t))
+                .transpose()?,
+        });
+    }
+    if reports.is_empty() {
+        return Err(Error::Infeasible(format!(
+            "no {} solution to budget",
+            match args.branch {
+                BranchArg::Ascending => "ascending",
+                BranchArg::Descending => "descending",
+                BranchArg::Both => "",
+            }
+        )));
+    }
+    let mut buf = Vec::new();
+    let io = |e: std::io::Error| Error::Usage(format!("cannot write output: {e}"));
+    match args.format {
+        Format::Json => write_json(&mut buf, &reports).map_err(io)?,
+        Format::Table => write_table(&mut buf, &reports).map_err(io)?,
+        Format::Csv => {
+            return Err(Error::Usage(
+                "--format csv is not available for budget: use table or json".into(),
+            ))
+        }
+    }
+    super::emit(&buf)?;
+    Ok(0)
+}
