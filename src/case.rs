@@ -48,6 +48,16 @@ const SECTIONS: &[(&str, &[(&str, &str)])] = &[
             ("time-to-apoapsis", "time-to-apoapsis"),
             ("time-to-periapsis", "time-to-periapsis"),
             ("angle-to-apoapsis", "angle-to-apoapsis"),
+            ("inclination", "inclination"),
+        ],
+    ),
+    (
+        "site",
+        &[
+            ("latitude", "latitude"),
+            ("longitude", "longitude"),
+            ("azimuth", "azimuth"),
+            ("downrange", "downrange"),
         ],
     ),
     ("options", &[("min-periapsis-alt", "min-periapsis-alt")]),
@@ -110,7 +120,7 @@ pub fn parse_case(text: &str, origin: &str) -> Result<Case, Error> {
         }
         let Some((_, allowed)) = SECTIONS.iter().find(|(s, _)| s == key) else {
             return Err(Error::Usage(format!(
-                "case file {origin}: unknown section [{key}] (expected body, burnout, target, options, budget)"
+                "case file {origin}: unknown section [{key}] (expected body, burnout, target, site, options, budget)"
             )));
         };
         let Some(section) = value.as_table() else {

@@ -97,6 +97,81 @@ pub const KEYS: &[(&str, Kind)] = &[
     ("min-periapsis-alt", Kind::Length),
 ];
 
+/// Launch-site keys.
+pub const SITE_KEYS: &[(&str, Kind)] = &[
+    ("latitude", Kind::Angle),
+    ("longitude", Kind::Angle),
+    ("azimuth", Kind::Angle),
+    ("downrange", Kind::AngleOrLength),
+    ("inclination", Kind::Angle),
+];
+
+/// The launch site given in the inputs, if any (`latitude` present).
+///
+/// # Errors
+/// Unparseable values; site keys without `--latitude`; out-of-range angles.
+pub fn site_from_inputs(
+    inputs: &Inputs,
+    body: &Body,
+) -> Result<Option<crate::site::SiteInputs>, Error> {
+    let lat = num(inputs, "latitude", Kind::Angle)?;
+    let others = ["longitude", "azimuth", "downrange", "inclination"];
+    let Some(lat) = lat else {
+        if let Some(k) = others.iter().find(|k| get(inputs, k).is_some()) {
+            return Err(Error::Usage(format!(
+                "--{k} needs a launch site: give --latitude (geodetic) and --longitude"
+            )));
+        }
+        return Ok(None);
+    };
+    let downrange_rad = match get(inputs, "downrange") {
+        None => 0.0,
+        Some(text) => {
+            let p = crate::units::parse("--downrange", text, Kind::AngleOrLength)?;
+            if p.kind == Kind::Length {
+                p.si / body.radius_m
+            } else {
+                p.si
+            }
+        }
+    };
+    let site = crate::site::SiteInputs {
+        latitude_geodetic_rad: lat,
+        longitude_rad: num(inputs, "longitude", Kind::Angle)?.unwrap_or(0.0),
+        azimuth_rad: num(inputs, "azimuth", Kind::Angle)?,
+        downrange_rad,
+        inclination_rad: num(inputs, "inclination", Kind::Angle)?,
+    };
+    crate::site::validate(&site).map_err(|e| {
+        let key = match &e {
+            Error::OutOfRange {
+                quantity: "latitude",
+                ..
+            } => "latitude",
+            Error::OutOfRange {
+                quantity: "inclination",
+                ..
+            } => "inclination",
+            _ => "downrange",
+        };
+        about_flag(inputs, key, Kind::Angle, e)
+    })?;
+    Ok(Some(site))
+}
+
+/// Builds and solves the problem the inputs describe, with its launch site
+/// when one is given: the one entry point for `solve`, `scan` and `batch`.
+///
+/// # Errors
+/// Any input or solve error.
+pub fn solve_inputs(inputs: &Inputs) -> Result<crate::problem::Solved, Error> {
+    let problem = problem_from_inputs(inputs)?;
+    match site_from_inputs(inputs, &problem.body)? {
+        Some(site) => crate::site::solve_with_site(&problem, &site),
+        None => crate::problem::solve(&problem),
+    }
+}
+
 /// Error-budget keys (case-file `[budget]` section and `burnout budget` flags).
 pub const BUDGET_KEYS: &[(&str, Kind)] = &[
     ("speed-sigma", Kind::Speed),

@@ -77,83 +77,9 @@ pub fn burnout_for_conic(
     conic: &Conic,
     radius_m: f64,
 ) -> Result<Vec<BurnoutState>, Error> {
-    positive("burnout radius", radius_m, "m")?;
-    let rp = conic.periapsis_radius_m();
-    let r = radius_m;
-    if r < rp * (1.0 - APSIS_TOLERANCE) {
-        return Err(Error::BelowPeriapsis {
-            burnout_radius_m: r,
-            periapsis_radius_m: rp,
-        });
-    }
-    if let Some(ra) = conic.apoapsis_radius_m() {
-        if r > ra * (1.0 + APSIS_TOLERANCE) {
-            return Err(Error::AboveApoapsis {
-                burnout_radius_m: r,
-                apoapsis_radius_m: ra,
-            });
-        }
-    }
-    let p = conic.semi_latus_rectum_m();
-    let h = (mu_m3_s2 * p).sqrt();
-    let vt = h / r;
-    let at_periapsis = (r - rp).abs() <= APSIS_TOLERANCE * rp;
-    let at_apoapsis = conic
-        .apoapsis_radius_m()
-        .map(|ra| (r - ra).abs() <= APSIS_TOLERANCE * ra)
-        .unwrap_or(false);
-    if at_periapsis || at_apoapsis {
-        // Horizontal burnout; vis-viva gives the speed.
-        let nu = if at_periapsis { 0.0 } else { PI };
-        let speed = vt;
-        return Ok(vec![BurnoutState {
-            branch: Branch::Ascending,
-            radius_m: r,
-            speed_m_s: speed,
-            flight_path_angle_rad: 0.0,
-            true_anomaly_rad: nu,
-            conic: *conic,
-        }]);
-    }
-    let (vr, ecos, esin) = match conic.apoapsis_radius_m() {
-        Some(ra) => {
-            let s = rp + ra;
-            let prod = (r - rp) * (ra - r);
-            let vr = (2.0 * mu_m3_s2 * prod / s).sqrt() / r;
-            let ecos = (rp * (ra - r) - ra * (r - rp)) / (r * s);
-            let esin = 2.0 * (prod * rp * ra).sqrt() / (r * s);
-            (vr, ecos, esin)
-        }
-        None => {
-            let e = conic.ecc();
-            let k = rp * (1.0 + e) + r * (e - 1.0);
-            let vr = (mu_m3_s2 * (r - rp) * k / rp).sqrt() / r;
-            let ecos = (p - r) / r;
-            let esin = vr * h / mu_m3_s2;
-            (vr, ecos, esin)
-        }
-    };
-    let speed = vr.hypot(vt);
-    let fpa = vr.atan2(vt);
-    let nu = esin.atan2(ecos);
-    Ok(vec![
-        BurnoutState {
-            branch: Branch::Ascending,
-            radius_m: r,
-            speed_m_s: speed,
-            flight_path_angle_rad: fpa,
-            true_anomaly_rad: nu,
-            conic: *conic,
-        },
-        BurnoutState {
-            branch: Branch::Descending,
-            radius_m: r,
-            speed_m_s: speed,
-            flight_path_angle_rad: -fpa,
-            true_anomaly_rad: 2.0 * PI - nu,
-            conic: *conic,
-        },
-    ])
+    // One implementation, allocation-free, shared with the fast scan path.
+    let (states, n) = crate::lean::pair_states(mu_m3_s2, conic, radius_m)?;
+    Ok(states[..n].to_vec())
 }
 
 /// The state reached by the forward map, labelled by the sign of the angle.

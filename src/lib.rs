@@ -23,19 +23,25 @@
 #![warn(missing_docs)]
 #![deny(clippy::float_cmp)]
 
+pub mod batch;
 pub mod body;
 pub mod budget;
 pub mod case;
 pub mod error;
 pub mod feasibility;
+pub mod grid;
 pub mod inputs;
 pub mod invert;
 pub mod kepler;
+pub mod lean;
 pub mod numeric;
 pub mod orbit;
+pub mod output;
 pub mod problem;
 pub mod report;
+pub mod scan;
 pub mod sensitivity;
+pub mod site;
 #[cfg(test)]
 pub(crate) mod strategies;
 pub mod target;

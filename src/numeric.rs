@@ -11,6 +11,13 @@
 //!   refined with argmin's Brent minimiser to catch tangent (double) roots.
 //!   Roots closer together than one sample spacing could merge; that is the
 //!   limit of the completeness claim.
+//! - Burnout radius fixed, speed and angle free, two targets of which one is
+//!   an orbit element: the states that meet the element exactly form one or
+//!   two sheets parametrised by the flight-path angle (closed form); the
+//!   other target's residual is bracketed along each sheet over the whole
+//!   angle range (1024 samples) and refined with Brent's root, so every root
+//!   is found up to the sampling resolution; each is then polished by the
+//!   trust-region solver below.
 //! - Otherwise (two unknowns, or more targets than unknowns): argmin's
 //!   trust-region method (Steihaug subproblem) on 0.5 |f|^2 with the
 //!   Gauss-Newton Hessian J^T J, on nalgebra vectors, from the closed-form states
@@ -144,7 +151,7 @@ impl System {
 
     /// Burnout (r, v, fpa) from unconstrained coordinates x:
     /// v = v_ref exp(x), fpa = (pi/2) tanh(x), r = R (1 + exp(x)).
-    fn state_of(&self, x: &[f64]) -> (f64, f64, f64) {
+    pub(crate) fn state_of(&self, x: &[f64]) -> (f64, f64, f64) {
         let mut r = self.fixed_radius_m.unwrap_or(f64::NAN);
         let mut v = self.fixed_speed_m_s.unwrap_or(f64::NAN);
         let mut gamma = self.fixed_fpa_rad.unwrap_or(f64::NAN);
@@ -159,7 +166,7 @@ impl System {
     }
 
     /// Inverse of [`System::state_of`].
-    fn coords_of(&self, r: f64, v: f64, gamma: f64) -> Vec<f64> {
+    pub(crate) fn coords_of(&self, r: f64, v: f64, gamma: f64) -> Vec<f64> {
         self.unknowns
             .iter()
             .map(|u| match u {
@@ -240,7 +247,20 @@ impl System {
     }
 }
 
-fn max_abs(v: &[f64]) -> f64 {
+/// A system of scaled residuals over unconstrained coordinates, for the
+/// trust-region least-squares solver.
+pub(crate) trait Residuals {
+    /// Residual vector at `x`, `None` where a target is undefined.
+    fn residuals_x(&self, x: &[f64]) -> Option<Vec<f64>>;
+}
+
+impl Residuals for System {
+    fn residuals_x(&self, x: &[f64]) -> Option<Vec<f64>> {
+        System::residuals_x(self, x)
+    }
+}
+
+pub(crate) fn max_abs(v: &[f64]) -> f64 {
     v.iter().fold(0.0, |m, x| m.max(x.abs()))
 }
 
@@ -248,14 +268,14 @@ fn max_abs(v: &[f64]) -> f64 {
 /// with gradient J^T f and the Gauss-Newton Hessian J^T J, for argmin's
 /// trust-region method. Where a target is undefined the cost is huge, so the
 /// trust region rejects the step and shrinks.
-struct LeastSquares<'a> {
-    system: &'a System,
+struct LeastSquares<'a, S: Residuals> {
+    system: &'a S,
 }
 
 /// Cost assigned where a target does not exist for the trial orbit.
 const UNDEFINED_COST: f64 = 1e30;
 
-impl LeastSquares<'_> {
+impl<S: Residuals> LeastSquares<'_, S> {
     /// Central-difference Jacobian in the unconstrained coordinates (it only
     /// steers the iteration; reported sensitivities are analytic).
     fn jacobian(&self, x: &DVector<f64>) -> Option<(DVector<f64>, DMatrix<f64>)> {
@@ -284,7 +304,7 @@ impl LeastSquares<'_> {
     }
 }
 
-impl CostFunction for LeastSquares<'_> {
+impl<S: Residuals> CostFunction for LeastSquares<'_, S> {
     type Param = DVector<f64>;
     type Output = f64;
     fn cost(&self, x: &Self::Param) -> Result<f64, argmin::core::Error> {
@@ -296,7 +316,7 @@ impl CostFunction for LeastSquares<'_> {
     }
 }
 
-impl Gradient for LeastSquares<'_> {
+impl<S: Residuals> Gradient for LeastSquares<'_, S> {
     type Param = DVector<f64>;
     type Gradient = DVector<f64>;
     fn gradient(&self, x: &Self::Param) -> Result<Self::Gradient, argmin::core::Error> {
@@ -307,7 +327,7 @@ impl Gradient for LeastSquares<'_> {
     }
 }
 
-impl Hessian for LeastSquares<'_> {
+impl<S: Residuals> Hessian for LeastSquares<'_, S> {
     type Param = DVector<f64>;
     type Hessian = DMatrix<f64>;
     fn hessian(&self, x: &Self::Param) -> Result<Self::Hessian, argmin::core::Error> {
@@ -319,14 +339,14 @@ impl Hessian for LeastSquares<'_> {
 }
 
 /// Result of one least-squares run.
-struct Run {
-    x: Vec<f64>,
-    residuals: Vec<f64>,
-    iterations: u64,
-    termination: String,
+pub(crate) struct Run {
+    pub(crate) x: Vec<f64>,
+    pub(crate) residuals: Vec<f64>,
+    pub(crate) iterations: u64,
+    pub(crate) termination: String,
 }
 
-fn trust_region(system: &System, x0: Vec<f64>) -> Option<Run> {
+pub(crate) fn trust_region<S: Residuals>(system: &S, x0: Vec<f64>) -> Option<Run> {
     let x0 = DVector::from_vec(x0);
     system.residuals_x(x0.as_slice())?;
     let sub: Steihaug<DVector<f64>, f64> =
@@ -504,6 +524,114 @@ fn scalar_roots(system: &System) -> Vec<(f64, u64, String)> {
     roots
 }
 
+/// One sheet of the one-parameter family of burnout states that meet an
+/// orbit-element target exactly: for each flight-path angle, the k-th speed
+/// of [`crate::invert::speed_for_target`]. The other target's residual along
+/// it is a function of the angle alone.
+struct Sheet<'a> {
+    system: &'a System,
+    radius_m: f64,
+    element: &'a Target,
+    other: usize,
+    k: usize,
+}
+
+impl Sheet<'_> {
+    fn eval(&self, gamma: f64) -> Option<f64> {
+        let speeds =
+            crate::invert::speed_for_target(self.system.mu, self.radius_m, gamma, self.element)
+                .ok()?;
+        let v = speeds.get(self.k)?.speed_m_s;
+        self.system
+            .residuals_at(self.radius_m, v, gamma)
+            .map(|r| r[self.other])
+    }
+    fn speed(&self, gamma: f64) -> Option<f64> {
+        crate::invert::speed_for_target(self.system.mu, self.radius_m, gamma, self.element)
+            .ok()?
+            .get(self.k)
+            .map(|st| st.speed_m_s)
+    }
+}
+
+impl CostFunction for Sheet<'_> {
+    type Param = f64;
+    type Output = f64;
+    fn cost(&self, gamma: &f64) -> Result<f64, argmin::core::Error> {
+        self.eval(*gamma)
+            .ok_or_else(|| argmin::core::Error::msg("off the sheet"))
+    }
+}
+
+/// With the burnout radius fixed, speed and angle free, and two targets of
+/// which one is an orbit element: every root, by bracketing the other
+/// target's residual over the flight-path angle (1024 samples from -90 to
+/// 90 deg) on each sheet of states that meet the element exactly, refined
+/// with argmin's Brent root. Returns (r, v, fpa) of each root.
+fn sheet_roots(system: &System) -> Vec<(f64, f64, f64)> {
+    let Some(r) = system.fixed_radius_m else {
+        return Vec::new();
+    };
+    if system.unknowns != [Unknown::Speed, Unknown::FlightPathAngle] || system.targets.len() != 2 {
+        return Vec::new();
+    }
+    let Some(e_idx) = system
+        .targets
+        .iter()
+        .position(|t| t.quantity.is_orbit_element())
+    else {
+        return Vec::new();
+    };
+    let other = 1 - e_idx;
+    const SAMPLES: usize = 1024;
+    let lim = FRAC_PI_2 * (1.0 - 1e-7);
+    let grid: Vec<f64> = (0..SAMPLES)
+        .map(|k| -lim + 2.0 * lim * k as f64 / (SAMPLES - 1) as f64)
+        .collect();
+    let mut out = Vec::new();
+    for k in 0..2 {
+        let sheet = Sheet {
+            system,
+            radius_m: r,
+            element: &system.targets[e_idx],
+            other,
+            k,
+        };
+        let vals: Vec<Option<f64>> = grid.iter().map(|g| sheet.eval(*g)).collect();
+        for j in 0..SAMPLES - 1 {
+            let (Some(a), Some(b)) = (vals[j], vals[j + 1]) else {
+                continue;
+            };
+            if a.signum() == b.signum() && a != 0.0 {
+                continue;
+            }
+            let solver = BrentRoot::new(grid[j], grid[j + 1], 1e-15);
+            let sheet_j = Sheet {
+                system,
+                radius_m: r,
+                element: &system.targets[e_idx],
+                other,
+                k,
+            };
+            if let Ok(res) = Executor::new(sheet_j, solver)
+                .configure(|st| st.param(0.5 * (grid[j] + grid[j + 1])).max_iters(200))
+                .run()
+            {
+                if let Some(g) = res.state().get_best_param().copied() {
+                    if let (Some(v), Some(f)) = (sheet.speed(g), sheet.eval(g)) {
+                        // A sign change across a jump (e.g. time to apoapsis
+                        // wrapping at apoapsis) is not a root.
+                        if f.abs() <= 1e-9 {
+                            out.push((r, v, g));
+                        }
+                    }
+                }
+            }
+        }
+    }
+    out
+}
+
 /// Starting points: closed-form states where some pair of orbit-element
 /// targets has one, then a grid over the domain.
 fn seeds(system: &System) -> Vec<Vec<f64>> {
@@ -617,9 +745,20 @@ fn solve_system(
             termination,
         ));
     }
+    let mut bracketed = false;
     let starts: Vec<Vec<f64>> = match start {
         Some((r, v, gamma)) => vec![system.coords_of(r, v, gamma)],
-        None => seeds(system),
+        None => {
+            // Bracketed roots first (complete along each sheet), then the
+            // closed-form and grid starts.
+            let mut v: Vec<Vec<f64>> = sheet_roots(system)
+                .into_iter()
+                .map(|(r, v, g)| system.coords_of(r, v, g))
+                .collect();
+            bracketed = !v.is_empty();
+            v.extend(seeds(system));
+            v
+        }
     };
     let mut runs: Vec<Run> = starts
         .into_iter()
@@ -680,6 +819,8 @@ fn solve_system(
     }
     let method = if m > n {
         "trust-region least squares, gauss-newton hessian (argmin)"
+    } else if bracketed {
+        "brent-root bracketed over the flight-path angle, trust-region polish (argmin)"
     } else {
         "trust-region, gauss-newton hessian (argmin)"
     };

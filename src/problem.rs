@@ -37,6 +37,8 @@ pub struct Solution {
     pub sensitivity: Sensitivity,
     /// Warnings about this solution.
     pub warnings: Vec<Warning>,
+    /// Launch-site geometry, when a site was given.
+    pub site: Option<crate::site::SiteState>,
 }
 
 /// How a problem was answered.
@@ -224,6 +226,7 @@ pub(crate) fn finish(
         .map(|state| Solution {
             sensitivity: crate::sensitivity::partials_for_state(body.mu_m3_s2, &state),
             warnings: check_state(body, &state, min_alt),
+            site: None,
             state,
         })
         .collect();

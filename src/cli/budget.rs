@@ -3,7 +3,7 @@
 use super::{Format, ProblemArgs};
 use burnout::budget::{allowed_errors, map_errors};
 use burnout::case::overlay;
-use burnout::inputs::{budget_from_inputs, problem_from_inputs, Inputs};
+use burnout::inputs::{budget_from_inputs, solve_inputs, Inputs};
 use burnout::report::budget::{write_json, write_table, BudgetReport};
 use burnout::Error;
 
@@ -91,8 +91,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
             "nothing to budget: give burnout errors (--speed-sigma, --fpa-sigma, --alt-sigma) and/or orbit tolerances (--periapsis-tol, --apoapsis-tol, ...)".into(),
         ));
     }
-    let problem = problem_from_inputs(&inputs)?;
-    let solved = burnout::solve(&problem)?;
+    let solved = solve_inputs(&inputs)?;
     let mu = solved.body.mu_m3_s2;
     let mut reports = Vec::new();
     for s in &solved.solutions {

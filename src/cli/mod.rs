@@ -1,6 +1,9 @@
 //! Command-line layer: clap definitions and dispatch. Belongs to the binary.
 
+pub mod batch;
 pub mod budget;
+pub mod progress;
+pub mod scan;
 pub mod solve;
 
 use burnout::case::{overlay, parse_case};
@@ -25,6 +28,10 @@ pub enum Command {
     Solve(solve::Args),
     /// Error budget: orbit errors from burnout errors, and burnout errors allowed by orbit tolerances.
     Budget(budget::Args),
+    /// Scan: solve over ranges of inputs (START..END:STEP or START..END/N) into a table, CSV, JSON or figure.
+    Scan(scan::Args),
+    /// Batch: one targeting problem per row of a CSV file, streamed to a results CSV.
+    Batch(batch::Args),
 }
 
 /// Output format.
@@ -125,6 +132,21 @@ pub struct ProblemArgs {
     /// Burnout speed, inertial (bare: km/s).
     #[arg(long, allow_hyphen_values = true)]
     pub speed: Option<String>,
+    /// Launch-site geodetic latitude (bare: deg).
+    #[arg(long, allow_hyphen_values = true)]
+    pub latitude: Option<String>,
+    /// Launch-site longitude, east positive (bare: deg).
+    #[arg(long, allow_hyphen_values = true)]
+    pub longitude: Option<String>,
+    /// Launch azimuth at the site, from north through east, as flown over the rotating surface (bare: deg).
+    #[arg(long, allow_hyphen_values = true)]
+    pub azimuth: Option<String>,
+    /// Great-circle arc from the site to the burnout subpoint: an angle (bare: deg) or a surface length (km, nmi, ...).
+    #[arg(long, allow_hyphen_values = true)]
+    pub downrange: Option<String>,
+    /// Target inclination (bare: deg); needs a site.
+    #[arg(long, allow_hyphen_values = true)]
+    pub inclination: Option<String>,
     /// Lowest periapsis altitude considered safe (bare: km) [default: earth 150 km, common practice].
     #[arg(long, allow_hyphen_values = true)]
     pub min_periapsis_alt: Option<String>,
@@ -133,7 +155,7 @@ pub struct ProblemArgs {
 impl ProblemArgs {
     /// The flags given, as named inputs (keys without dashes).
     pub fn flag_inputs(&self) -> Inputs {
-        let pairs: [(&str, &Option<String>); 22] = [
+        let pairs: [(&str, &Option<String>); 26] = [
             ("body", &self.body),
             ("mu", &self.mu),
             ("radius", &self.radius),
@@ -155,7 +177,11 @@ impl ProblemArgs {
             ("zenith", &self.zenith),
             ("speed", &self.speed),
             ("min-periapsis-alt", &self.min_periapsis_alt),
-            ("", &None),
+            ("latitude", &self.latitude),
+            ("longitude", &self.longitude),
+            ("azimuth", &self.azimuth),
+            ("downrange", &self.downrange),
+            ("inclination", &self.inclination),
         ];
         pairs
             .iter()
@@ -184,6 +210,8 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
     match cli.command {
         Command::Solve(args) => solve::run(args),
         Command::Budget(args) => budget::run(args),
+        Command::Scan(args) => scan::run(args),
+        Command::Batch(args) => batch::run(args),
     }
 }
 

@@ -1,7 +1,7 @@
 //! `burnout solve`.
 
 use super::{Format, ProblemArgs, UnitsArg};
-use burnout::inputs::problem_from_inputs;
+use burnout::inputs::solve_inputs;
 use burnout::report;
 use burnout::Error;
 
@@ -24,8 +24,7 @@ pub struct Args {
 /// Solves and prints; returns the exit code.
 pub fn run(args: Args) -> Result<i32, Error> {
     let inputs = args.problem.inputs()?;
-    let problem = problem_from_inputs(&inputs)?;
-    let solved = burnout::solve(&problem)?;
+    let solved = solve_inputs(&inputs)?;
     let mut buf = Vec::new();
     match args.format {
         Format::Table => report::table::write(&mut buf, &solved, args.units.into()).map_err(io)?,

@@ -41,6 +41,20 @@ pub struct OrbitJson {
     pub periapsis_alt_m: f64,
     /// Apoapsis altitude, m (addition; null for open orbits).
     pub apoapsis_alt_m: Option<f64>,
+    /// Inclination, deg (with a launch site only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub inclination_deg: Option<f64>,
+}
+
+/// Surface-relative burnout velocity.
+#[derive(Serialize)]
+pub struct RelativeJson {
+    /// Speed relative to the rotating surface, m/s.
+    pub speed_m_s: f64,
+    /// Flight-path angle relative to the rotating surface, deg.
+    pub flight_path_angle_deg: f64,
+    /// Heading relative to the rotating surface, deg from north through east.
+    pub azimuth_deg: f64,
 }
 
 /// `sensitivity` object.
@@ -78,6 +92,24 @@ pub struct SolutionJson {
     pub sensitivity: SensitivityJson,
     /// Warnings for this solution (addition).
     pub warnings: Vec<String>,
+    /// Inertial azimuth at burnout, deg (with a site).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub azimuth_deg: Option<f64>,
+    /// Geocentric latitude of the burnout point, deg (with a site).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub burnout_latitude_deg: Option<f64>,
+    /// Longitude of the burnout point, deg (with a site).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub burnout_longitude_deg: Option<f64>,
+    /// Surface-relative burnout velocity (with a site).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub relative: Option<RelativeJson>,
+    /// Launch azimuth at the site as flown, deg (with a site; addition).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub launch_azimuth_deg: Option<f64>,
+    /// Eastward speed of the surface at burnout, m/s (with a site; addition).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub rotation_speed_m_s: Option<f64>,
 }
 
 /// `solver` object.
@@ -131,6 +163,7 @@ pub fn orbit_json(mu: f64, surface_m: f64, s: &Solution) -> OrbitJson {
         semi_latus_rectum_m: c.semi_latus_rectum_m(),
         periapsis_alt_m: c.periapsis_radius_m() - surface_m,
         apoapsis_alt_m: c.apoapsis_radius_m().map(|r| r - surface_m),
+        inclination_deg: s.site.map(|x| x.inclination_rad.to_degrees()),
     }
 }
 
@@ -152,6 +185,16 @@ fn solution_json(mu: f64, surface_m: f64, s: &Solution) -> SolutionJson {
             matrix: s.sensitivity.rows.to_vec(),
         },
         warnings: s.warnings.iter().map(|w| w.to_string()).collect(),
+        azimuth_deg: s.site.map(|x| x.inertial_azimuth_rad.to_degrees()),
+        burnout_latitude_deg: s.site.map(|x| x.burnout_latitude_rad.to_degrees()),
+        burnout_longitude_deg: s.site.map(|x| x.burnout_longitude_rad.to_degrees()),
+        relative: s.site.map(|x| RelativeJson {
+            speed_m_s: x.relative_speed_m_s,
+            flight_path_angle_deg: x.relative_flight_path_angle_rad.to_degrees(),
+            azimuth_deg: x.relative_azimuth_rad.to_degrees(),
+        }),
+        launch_azimuth_deg: s.site.map(|x| x.launch_azimuth_rad.to_degrees()),
+        rotation_speed_m_s: s.site.map(|x| x.rotation_speed_m_s),
     }
 }
 

@@ -4,6 +4,8 @@
 pub mod budget;
 pub mod csv;
 pub mod json;
+pub mod plot;
+pub mod rows;
 pub mod table;
 
 /// The caution printed with every human-readable result.

@@ -142,6 +142,47 @@ pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std:
             fixed(st.true_anomaly_rad.to_degrees(), 4)
         )?;
     }
+    if solved.solutions.iter().any(|s| s.site.is_some()) {
+        writeln!(out)?;
+        writeln!(
+            out,
+            "{:<11} {:>11} {:>11} {:>11} {:>11} {:>10} {:>13} {:>9} {:>9}",
+            "from site",
+            "launch az",
+            "burnout lat",
+            "burnout lon",
+            "inertial az",
+            "incl deg",
+            format!("rel speed {su}"),
+            "rel fpa",
+            "rel az"
+        )?;
+        for s in &solved.solutions {
+            if let Some(x) = &s.site {
+                writeln!(
+                    out,
+                    "{:<11} {:>11} {:>11} {:>11} {:>11} {:>10} {:>13} {:>9} {:>9}",
+                    s.state.branch.name(),
+                    fixed(x.launch_azimuth_rad.to_degrees(), 4),
+                    fixed(x.burnout_latitude_rad.to_degrees(), 4),
+                    fixed(x.burnout_longitude_rad.to_degrees(), 4),
+                    fixed(x.inertial_azimuth_rad.to_degrees(), 4),
+                    fixed(x.inclination_rad.to_degrees(), 4),
+                    fixed(
+                        x.relative_speed_m_s / sf,
+                        if units == DisplayUnits::Us { 2 } else { 6 }
+                    ),
+                    fixed(x.relative_flight_path_angle_rad.to_degrees(), 4),
+                    fixed(x.relative_azimuth_rad.to_degrees(), 4)
+                )?;
+            }
+        }
+        writeln!(
+            out,
+            "  angles in deg; burnout latitude is geocentric; the surface moves east at {} {su} at burnout",
+            fixed(solved.solutions.iter().find_map(|s| s.site).map(|x| x.rotation_speed_m_s).unwrap_or(0.0) / sf, 4)
+        )?;
+    }
     let orbits: Vec<_> = if distinct_orbits {
         solved.solutions.iter().collect()
     } else {

@@ -7,8 +7,11 @@
 //! keys, exit codes).
 
 mod bad_input;
+mod batch;
 mod budget;
 mod cases;
+mod scan;
+mod site;
 mod solve;
 
 use serde_json::Value;

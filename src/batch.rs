@@ -1,0 +1,516 @@
+//! Batch runs: one targeting problem per CSV row, streamed.
+//!
+//! Input: a header of solve flags without dashes (`id`, `body`,
+//! `burnout-alt`, `periapsis-alt`, ..., optional `branch`), one case per
+//! row; an empty cell means "not given". Header names are matched without
+//! regard to case, surrounding spaces, or `_` for `-`. Columns that are not
+//! solve inputs are carried through to the output unchanged
+//! ([`Batch::unknown_columns`] lists them so the caller can warn once).
+//!
+//! Output: the input columns as read, then [`crate::report::csv::RESULT_COLUMNS`]
+//! (and the 15 partials if asked), one row per kept solution, or one row
+//! with status `infeasible` or `invalid` and the reason. Every input row has
+//! at least one output row, in input order; a failed row never stops the run.
+//!
+//! Memory stays flat: records are read into a fixed pool of
+//! [`BATCH_CHUNK`] reused records, solved (in parallel with rayon when asked)
+//! and written before the next chunk is read.
+
+use crate::error::{Error, ErrorClass};
+use crate::inputs::{solve_inputs, Inputs};
+use crate::report::csv::{sensitivity_columns, RESULT_COLUMNS};
+use crate::report::rows::{kept, no_branch_message, push_csv_text, BranchChoice, Record};
+use crate::scan::solve_input_kind;
+use rayon::prelude::*;
+use std::io::{Read, Write};
+
+/// Records read, solved and written together.
+pub const BATCH_CHUNK: usize = 4096;
+/// Records per parallel task within a chunk.
+const TASK: usize = 128;
+
+/// What a header column is.
+#[derive(Debug, Clone, PartialEq)]
+enum Column {
+    /// A solve input, by key.
+    Input(String),
+    /// Which branches to keep.
+    Branch,
+    /// Carried through: `id`, or a column that is not a solve input.
+    Carried,
+}
+
+/// Normalised header name: trimmed, lower case, `_` read as `-`.
+fn normalise(name: &str) -> String {
+    name.trim()
+        .trim_start_matches('\u{feff}')
+        .to_ascii_lowercase()
+        .replace('_', "-")
+}
+
+/// How to run a batch.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct BatchOptions {
+    /// Add the 15 sensitivity columns.
+    pub sensitivities: bool,
+    /// Solve each chunk in parallel (output order is the same either way).
+    pub parallel: bool,
+}
+
+impl Default for BatchOptions {
+    fn default() -> Self {
+        BatchOptions {
+            sensitivities: false,
+            parallel: true,
+        }
+    }
+}
+
+/// Counts of a finished batch (input rows, by outcome).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct BatchSummary {
+    /// Input rows read (the header not counted).
+    pub rows_read: u64,
+    /// Rows with at least one kept solution.
+    pub solved: u64,
+    /// Rows whose target was infeasible.
+    pub infeasible: u64,
+    /// Rows whose inputs could not be used (bad value, short row, ...).
+    pub invalid: u64,
+    /// Output rows written.
+    pub rows_written: u64,
+}
+
+impl BatchSummary {
+    /// Whether every input row solved.
+    pub fn all_solved(&self) -> bool {
+        self.solved == self.rows_read
+    }
+
+    fn add(&mut self, o: &BatchSummary) {
+        self.rows_read += o.rows_read;
+        self.solved += o.solved;
+        self.infeasible += o.infeasible;
+        self.invalid += o.invalid;
+        self.rows_written += o.rows_written;
+    }
+}
+
+/// Why a batch stopped (a bad row never stops it).
+#[derive(Debug)]
+pub enum BatchError {
+    /// The input could not be read.
+    Read(Error),
+    /// The output could not be written.
+    Write(std::io::Error),
+}
+
+impl std::fmt::Display for BatchError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            BatchError::Read(e) => write!(f, "{e}"),
+            BatchError::Write(e) => write!(f, "cannot write the output: {e}"),
+        }
+    }
+}
+
+impl std::error::Error for BatchError {}
+
+/// A batch input with its header read.
+pub struct Batch<R> {
+    reader: csv::Reader<R>,
+    layout: Layout,
+    unknown: Vec<String>,
+    empty: bool,
+}
+
+/// The header: what each column is (shared by the parallel row solvers).
+struct Layout {
+    /// Header cells as written (BOM removed).
+    names: Vec<String>,
+    columns: Vec<Column>,
+}
+
+impl<R: Read> Batch<R> {
+    /// Reads the header.
+    ///
+    /// # Errors
+    /// [`Error::Usage`] when the input cannot be read or a solve input
+    /// appears twice in the header.
+    pub fn open(input: R) -> Result<Batch<R>, Error> {
+        let mut reader = csv::ReaderBuilder::new()
+            .has_headers(false)
+            .flexible(true)
+            .from_reader(input);
+        let mut first = csv::ByteRecord::new();
+        let has_header = reader
+            .read_byte_record(&mut first)
+            .map_err(|e| Error::Usage(format!("cannot read the batch input: {e}")))?;
+        let names: Vec<String> = first
+            .iter()
+            .map(|f| {
+                String::from_utf8_lossy(f)
+                    .trim_start_matches('\u{feff}')
+                    .to_string()
+            })
+            .collect();
+        let mut columns = Vec::with_capacity(names.len());
+        let mut unknown = Vec::new();
+        for (i, name) in names.iter().enumerate() {
+            let key = normalise(name);
+            let col = if key == "branch" {
+                Column::Branch
+            } else if key == "body" || solve_input_kind(&key).is_some() {
+                Column::Input(key.clone())
+            } else {
+                if key != "id" {
+                    unknown.push(if name.trim().is_empty() {
+                        format!("(column {}, no name)", i + 1)
+                    } else {
+                        name.clone()
+                    });
+                }
+                Column::Carried
+            };
+            if col != Column::Carried {
+                if let Some(j) = columns.iter().position(|c| *c == col) {
+                    return Err(Error::Usage(format!(
+                        "batch header names '{key}' twice (columns {} and {}): give each input once",
+                        j + 1,
+                        i + 1
+                    )));
+                }
+            }
+            columns.push(col);
+        }
+        Ok(Batch {
+            reader,
+            layout: Layout { names, columns },
+            unknown,
+            empty: !has_header,
+        })
+    }
+
+    /// Header cells that are not solve inputs (nor `id` or `branch`).
+    pub fn unknown_columns(&self) -> &[String] {
+        &self.unknown
+    }
+
+    /// Whether the input had no header at all (an empty file).
+    pub fn is_empty(&self) -> bool {
+        self.empty
+    }
+
+    /// The output header: input columns, result columns, partials if asked.
+    pub fn output_columns(&self, sensitivities: bool) -> Vec<String> {
+        let mut cols = self.layout.names.clone();
+        cols.extend(RESULT_COLUMNS.iter().map(|s| s.to_string()));
+        if sensitivities {
+            cols.extend(sensitivity_columns());
+        }
+        cols
+    }
+
+    /// Reads, solves and writes every row. `progress` gets the rows and
+    /// bytes read so far after each chunk.
+    ///
+    /// # Errors
+    /// [`BatchError::Read`] if the input cannot be read part-way,
+    /// [`BatchError::Write`] if the output cannot be written. Bad rows are
+    /// output rows, not errors.
+    pub fn run<W: Write>(
+        mut self,
+        mut out: W,
+        opts: &BatchOptions,
+        progress: &mut dyn FnMut(u64, u64),
+    ) -> Result<BatchSummary, BatchError> {
+        let mut head = Vec::new();
+        let mut rec = Record::new(&mut head);
+        for c in self.output_columns(opts.sensitivities) {
+            rec.text(&c);
+        }
+        rec.end();
+        out.write_all(&head).map_err(BatchError::Write)?;
+        let mut total = BatchSummary::default();
+        let mut pool: Vec<csv::ByteRecord> = Vec::new();
+        loop {
+            let mut n = 0;
+            while n < BATCH_CHUNK {
+                if pool.len() == n {
+                    pool.push(csv::ByteRecord::new());
+                }
+                let more = self.reader.read_byte_record(&mut pool[n]).map_err(|e| {
+                    BatchError::Read(Error::Usage(format!("cannot read the batch input: {e}")))
+                })?;
+                if !more {
+                    break;
+                }
+                n += 1;
+            }
+            if n == 0 {
+                break;
+            }
+            let records = &pool[..n];
+            let this = &self.layout;
+            let parts: Vec<(Vec<u8>, BatchSummary)> = if opts.parallel && n > TASK {
+                records
+                    .par_chunks(TASK)
+                    .map(|group| this.solve_group(group, opts))
+                    .collect()
+            } else {
+                records
+                    .chunks(TASK)
+                    .map(|group| this.solve_group(group, opts))
+                    .collect()
+            };
+            for (bytes, counts) in parts {
+                out.write_all(&bytes).map_err(BatchError::Write)?;
+                total.add(&counts);
+            }
+            let bytes_read = self.reader.position().byte();
+            progress(total.rows_read, bytes_read);
+            if n < BATCH_CHUNK {
+                break;
+            }
+        }
+        out.flush().map_err(BatchError::Write)?;
+        Ok(total)
+    }
+}
+
+impl Layout {
+    fn solve_group(
+        &self,
+        group: &[csv::ByteRecord],
+        opts: &BatchOptions,
+    ) -> (Vec<u8>, BatchSummary) {
+        let mut buf = Vec::with_capacity(group.len() * 256);
+        let mut counts = BatchSummary::default();
+        for r in group {
+            counts.rows_read += 1;
+            let (class, rows) = self.solve_row(r, opts, &mut buf);
+            counts.rows_written += rows;
+            match class {
+                None => counts.solved += 1,
+                Some(ErrorClass::Infeasible) => counts.infeasible += 1,
+                Some(ErrorClass::Usage) => counts.invalid += 1,
+            }
+        }
+        (buf, counts)
+    }
+
+    /// Writes the output rows of one record; returns `None` when it solved,
+    /// else the class of its failure, and the number of rows written.
+    fn solve_row(
+        &self,
+        r: &csv::ByteRecord,
+        opts: &BatchOptions,
+        buf: &mut Vec<u8>,
+    ) -> (Option<ErrorClass>, u64) {
+        let width = self.columns.len();
+        let line = r.position().map(|p| p.line()).unwrap_or(0);
+        // The input part of every output row: the cells as read, padded or
+        // cut to the header's width.
+        let mut prefix = Vec::with_capacity(128);
+        for i in 0..width {
+            if i > 0 {
+                prefix.push(b',');
+            }
+            if let Some(cell) = r.get(i) {
+                push_csv_text(&mut prefix, &String::from_utf8_lossy(cell));
+            }
+        }
+        if width > 0 {
+            prefix.push(b',');
+        }
+        let fail = |buf: &mut Vec<u8>, e: &Error| {
+            buf.extend_from_slice(&prefix);
+            Record::new(buf)
+                .failure(e.status(), &e.to_string(), opts.sensitivities)
+                .end();
+            (Some(e.class()), 1)
+        };
+        match self.problem_of(r, line) {
+            Err(e) => fail(buf, &e),
+            Ok((inputs, branch)) => {
+                let solved = solve_inputs(&inputs);
+                match solved {
+                    Err(e) => fail(buf, &e),
+                    Ok(solved) => {
+                        let mu = solved.body.mu_m3_s2;
+                        let mut rows = 0;
+                        for s in kept(&solved, branch) {
+                            buf.extend_from_slice(&prefix);
+                            Record::new(buf).solution(mu, s, opts.sensitivities).end();
+                            rows += 1;
+                        }
+                        if rows == 0 {
+                            let e = Error::Infeasible(no_branch_message(
+                                solved.solutions.iter().map(|s| s.state.branch),
+                                branch,
+                            ));
+                            return fail(buf, &e);
+                        }
+                        (None, rows)
+                    }
+                }
+            }
+        }
+    }
+
+    /// The named inputs and branch choice of one record.
+    fn problem_of(&self, r: &csv::ByteRecord, line: u64) -> Result<(Inputs, BranchChoice), Error> {
+        let width = self.columns.len();
+        if r.len() < width {
+            return Err(Error::Usage(format!(
+                "line {line} has {} field{} but the header has {width}: a short row (give every column a cell, empty for not given)",
+                r.len(),
+                if r.len() == 1 { "" } else { "s" }
+            )));
+        }
+        if r.len() > width {
+            return Err(Error::Usage(format!(
+                "line {line} has {} fields but the header has {width}: the extra cells are under no column",
+                r.len()
+            )));
+        }
+        let mut inputs = Inputs::new();
+        let mut branch = BranchChoice::Both;
+        for (i, col) in self.columns.iter().enumerate() {
+            let cell = r.get(i).unwrap_or_default();
+            let text = std::str::from_utf8(cell).map_err(|_| {
+                Error::Usage(format!(
+                    "line {line}: column '{}' is not valid UTF-8 text",
+                    self.names[i]
+                ))
+            })?;
+            match col {
+                Column::Input(key) if !text.trim().is_empty() => {
+                    inputs.insert(key.clone(), text.trim().to_string());
+                }
+                Column::Branch => branch = BranchChoice::from_name("column branch", text)?,
+                _ => {}
+            }
+        }
+        Ok((inputs, branch))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn run_text(input: &[u8], parallel: bool) -> (String, BatchSummary, Vec<String>) {
+        let batch = Batch::open(input).unwrap();
+        let unknown = batch.unknown_columns().to_vec();
+        let mut out = Vec::new();
+        let opts = BatchOptions {
+            sensitivities: false,
+            parallel,
+        };
+        let s = batch.run(&mut out, &opts, &mut |_, _| {}).unwrap();
+        (String::from_utf8(out).unwrap(), s, unknown)
+    }
+
+    fn rows(text: &str) -> Vec<csv::StringRecord> {
+        csv::ReaderBuilder::new()
+            .has_headers(false)
+            .flexible(true)
+            .from_reader(text.as_bytes())
+            .records()
+            .map(|r| r.unwrap())
+            .collect()
+    }
+
+    #[test]
+    fn every_row_is_answered_in_order_with_its_status() {
+        let input = b"id,burnout-alt,periapsis-alt,apoapsis-alt,branch\n\
+a,200,185,35786,ascending\n\
+b,100,185,35786,\n\
+c,200km,185,35786,\n\
+d,12 parsecs,185,35786,\n";
+        let (out, s, _) = run_text(input, false);
+        let r = rows(&out);
+        assert_eq!(r[0].get(0), Some("id"));
+        assert_eq!(&r[0][5], "status");
+        let ids: Vec<&str> = r[1..].iter().map(|x| &x[0]).collect();
+        assert_eq!(ids, ["a", "b", "c", "c", "d"]);
+        let status: Vec<&str> = r[1..].iter().map(|x| &x[5]).collect();
+        assert_eq!(status, ["ok", "infeasible", "ok", "ok", "invalid"]);
+        assert_eq!(&r[1][7], "ascending");
+        assert!(r[2][6].contains("below periapsis radius"), "{:?}", &r[2]);
+        assert!(r[5][6].contains("--burnout-alt"), "{:?}", &r[5]);
+        assert_eq!(
+            s,
+            BatchSummary {
+                rows_read: 4,
+                solved: 2,
+                infeasible: 1,
+                invalid: 1,
+                rows_written: 5
+            }
+        );
+    }
+
+    #[test]
+    fn parallel_output_is_identical_to_sequential() {
+        let mut input = String::from("id,burnout-alt,periapsis-alt,apoapsis-alt\n");
+        for i in 0..(BATCH_CHUNK + 700) {
+            // Every seventh row is infeasible (burnout below periapsis).
+            let alt = if i % 7 == 0 { 100 } else { 186 + i % 3000 };
+            input.push_str(&format!("r{i},{alt},185,{}\n", 20_000 + i));
+        }
+        let (a, sa, _) = run_text(input.as_bytes(), false);
+        let (b, sb, _) = run_text(input.as_bytes(), true);
+        assert_eq!(sa, sb);
+        assert!(a == b, "parallel output differs");
+        assert_eq!(sa.rows_read as usize, BATCH_CHUNK + 700);
+        assert_eq!(sa.infeasible as usize, (BATCH_CHUNK + 700).div_ceil(7));
+    }
+
+    #[test]
+    fn header_names_are_matched_loosely_and_unknown_ones_are_listed() {
+        let (out, s, unknown) = run_text(
+            b"\xef\xbb\xbfID, Burnout_Alt ,periapsis-alt,apoapsis-alt,notes\r\nx,200,185,35786,\"a, b\"\r\n",
+            false,
+        );
+        assert_eq!(unknown, vec!["notes".to_string()]);
+        assert_eq!(s.solved, 1);
+        let r = rows(&out);
+        assert_eq!(&r[0][0], "ID");
+        assert_eq!(&r[1][4], "a, b");
+    }
+
+    #[test]
+    fn budget_keys_are_not_solve_inputs() {
+        let batch = Batch::open(&b"burnout-alt,speed-sigma\n"[..]).unwrap();
+        assert_eq!(batch.unknown_columns(), ["speed-sigma".to_string()]);
+    }
+
+    #[test]
+    fn repeated_input_column_is_a_usage_error() {
+        let e = Batch::open(&b"burnout-alt,burnout_alt\n1,2\n"[..])
+            .err()
+            .unwrap()
+            .to_string();
+        assert_eq!(
+            e,
+            "batch header names 'burnout-alt' twice (columns 1 and 2): give each input once"
+        );
+    }
+
+    #[test]
+    fn empty_input_gives_a_header_and_no_rows() {
+        let batch = Batch::open(&b""[..]).unwrap();
+        assert!(batch.is_empty());
+        let mut out = Vec::new();
+        let s = batch
+            .run(&mut out, &BatchOptions::default(), &mut |_, _| {})
+            .unwrap();
+        assert_eq!(s.rows_read, 0);
+        assert!(s.all_solved());
+        assert!(String::from_utf8(out)
+            .unwrap()
+            .starts_with("status,message,branch,"));
+    }
+}

@@ -1,0 +1,180 @@
+//! `burnout scan`: a targeting table over ranges of any solve inputs.
+
+use super::progress::Progress;
+use super::{Format, ProblemArgs, UnitsArg};
+use burnout::output::AtomicFile;
+use burnout::report::rows::BranchChoice;
+use burnout::scan::{Plan, ScanFormat, ScanOptions};
+use burnout::Error;
+use std::io::{BufWriter, Write};
+use std::path::{Path, PathBuf};
+
+/// Branches to keep.
+#[derive(clap::ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+pub enum BranchArg {
+    /// Flight-path angle >= 0.
+    Ascending,
+    /// Flight-path angle <= 0.
+    Descending,
+    /// Both.
+    Both,
+}
+
+impl From<BranchArg> for BranchChoice {
+    fn from(b: BranchArg) -> Self {
+        match b {
+            BranchArg::Ascending => BranchChoice::Ascending,
+            BranchArg::Descending => BranchChoice::Descending,
+            BranchArg::Both => BranchChoice::Both,
+        }
+    }
+}
+
+/// Arguments of `burnout scan`.
+#[derive(clap::Args, Debug)]
+pub struct Args {
+    #[command(flatten)]
+    problem: ProblemArgs,
+    /// Output format [default: csv for an --out ending in .csv, json for .json, else table].
+    #[arg(long, value_enum)]
+    format: Option<Format>,
+    /// Write the rows to FILE instead of standard output (via a temporary file, then renamed).
+    #[arg(long, value_name = "FILE")]
+    out: Option<PathBuf>,
+    /// Replace an existing --out or --plot file.
+    #[arg(long)]
+    force: bool,
+    /// Add the 15 sensitivity columns d_<row>_d_<col> (CSV and JSON).
+    #[arg(long)]
+    sensitivities: bool,
+    /// Draw required speed and flight-path angle against the first swept input, as SVG.
+    #[arg(long, value_name = "FILE.svg")]
+    plot: Option<PathBuf>,
+    /// Branches to keep.
+    #[arg(long, value_enum, default_value_t = BranchArg::Both)]
+    branch: BranchArg,
+    /// Units of the human table.
+    #[arg(long, value_enum, default_value_t = UnitsArg::Si)]
+    units: UnitsArg,
+}
+
+fn format_for(format: Option<Format>, out: Option<&Path>) -> ScanFormat {
+    let chosen = format.unwrap_or_else(|| {
+        match out
+            .and_then(|p| p.extension())
+            .map(|e| e.to_string_lossy().to_ascii_lowercase())
+            .as_deref()
+        {
+            Some("csv") => Format::Csv,
+            Some("json") => Format::Json,
+            _ => Format::Table,
+        }
+    });
+    match chosen {
+        Format::Table => ScanFormat::Table,
+        Format::Csv => ScanFormat::Csv,
+        Format::Json => ScanFormat::Json,
+    }
+}
+
+fn same_file(a: &Path, b: &Path) -> bool {
+    let full = |p: &Path| std::path::absolute(p).unwrap_or_else(|_| p.to_path_buf());
+    full(a) == full(b)
+}
+
+/// Runs the scan; returns the exit code.
+pub fn run(args: Args) -> Result<i32, Error> {
+    let inputs = args.problem.inputs()?;
+    let plan = Plan::new(&inputs)?;
+    if args.plot.is_some() && plan.axes().len() > 2 {
+        let flags: Vec<&str> = plan.axes().iter().map(|a| a.flag.as_str()).collect();
+        return Err(Error::Usage(format!(
+            "--plot draws one or two swept inputs, but this scan sweeps {} ({}): fix all but two",
+            flags.len(),
+            flags.join(", ")
+        )));
+    }
+    if let (Some(o), Some(p)) = (&args.out, &args.plot) {
+        if same_file(o, p) {
+            return Err(Error::Usage(format!(
+                "--out and --plot both name '{}': give two files",
+                o.display()
+            )));
+        }
+    }
+    plan.check_structure()?;
+    let format = format_for(args.format, args.out.as_deref());
+    // Claim the output files before the work, so a long scan cannot end
+    // on "file exists".
+    let mut out_file = args
+        .out
+        .as_deref()
+        .map(|p| AtomicFile::create(p, args.force, "--out"))
+        .transpose()?;
+    let mut plot_file = args
+        .plot
+        .as_deref()
+        .map(|p| AtomicFile::create(p, args.force, "--plot"))
+        .transpose()?;
+    let opts = ScanOptions {
+        format,
+        branch: args.branch.into(),
+        sensitivities: args.sensitivities,
+        units: args.units.into(),
+        parallel: true,
+        plot: plot_file.is_some(),
+    };
+    let mut progress = Progress::new(plan.len() as u64, "points");
+    let result = match out_file.as_mut() {
+        Some(f) => plan.run(
+            &opts,
+            BufWriter::with_capacity(1 << 20, f.file()),
+            &mut |d| progress.update(d),
+        ),
+        None => plan.run(
+            &opts,
+            BufWriter::with_capacity(1 << 20, std::io::stdout()),
+            &mut |d| progress.update(d),
+        ),
+    };
+    progress.finish();
+    let report = match result {
+        Ok(r) => r,
+        Err(e) if out_file.is_none() && e.kind() == std::io::ErrorKind::BrokenPipe => return Ok(0),
+        Err(e) => {
+            let dest = match &args.out {
+                Some(p) => format!("--out '{}'", p.display()),
+                None => "standard output".into(),
+            };
+            return Err(Error::Usage(format!("cannot write {dest}: {e}")));
+        }
+    };
+    if let Some(f) = out_file {
+        f.commit()?;
+    }
+    if let (Some(mut f), Some(data)) = (plot_file.take(), report.plot.as_ref()) {
+        let shown = f.path().display().to_string();
+        burnout::report::plot::write_svg(&mut BufWriter::new(f.file()), data)
+            .map_err(|e| Error::Usage(format!("cannot write --plot '{shown}': {e}")))?;
+        f.commit()?;
+    }
+    if report.solved == 0 {
+        eprintln!(
+            "error: no point of the scan solved ({} infeasible, {} invalid): see the status column",
+            report.infeasible, report.invalid
+        );
+        return Ok(if report.infeasible > 0 { 3 } else { 2 });
+    }
+    let table_on_stdout = format == ScanFormat::Table && args.out.is_none();
+    if !table_on_stdout {
+        let mut err = std::io::stderr().lock();
+        for (i, line) in plan.summary_lines(&report, opts.units).iter().enumerate() {
+            let _ = if i == 0 {
+                writeln!(err, "{line} in {:.2} s", progress.elapsed().as_secs_f64())
+            } else {
+                writeln!(err, "{line}")
+            };
+        }
+    }
+    Ok(0)
+}

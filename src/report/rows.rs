@@ -1,0 +1,436 @@
+//! Result rows shared by `scan` and `batch`: which branches to keep, and a
+//! CSV record writer that formats straight into a reused byte buffer.
+//!
+//! The fields written here are exactly those of [`super::csv::solution_fields`]
+//! and [`super::csv::failure_fields`] (a unit test holds them together); this
+//! writer only avoids building a `String` per field, which matters when a
+//! scan writes millions of rows.
+
+use crate::error::Error;
+use crate::feasibility::Warning;
+use crate::invert::Branch;
+use crate::invert::BurnoutState;
+use crate::problem::{Solution, Solved};
+use crate::sensitivity::Sensitivity;
+
+/// The parts of a solution that a row shows (a [`Solution`], or the
+/// allocation-free answer of [`crate::lean`]).
+#[derive(Debug, Clone, Copy)]
+pub struct SolutionView<'a> {
+    /// The burnout state and its orbit.
+    pub state: &'a BurnoutState,
+    /// Its partials.
+    pub sensitivity: &'a Sensitivity,
+    /// Its warnings.
+    pub warnings: &'a [Warning],
+}
+
+impl<'a> From<&'a Solution> for SolutionView<'a> {
+    fn from(s: &'a Solution) -> Self {
+        SolutionView {
+            state: &s.state,
+            sensitivity: &s.sensitivity,
+            warnings: &s.warnings,
+        }
+    }
+}
+
+/// Which branches a scan or batch row keeps.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum BranchChoice {
+    /// Flight-path angle >= 0 only.
+    Ascending,
+    /// Flight-path angle <= 0 only.
+    Descending,
+    /// Every solution.
+    #[default]
+    Both,
+}
+
+impl BranchChoice {
+    /// Reads `ascending`, `descending` or `both` (an empty text is `both`).
+    ///
+    /// # Errors
+    /// [`Error::InvalidValue`] naming `origin` (a flag or column) and the text.
+    pub fn from_name(origin: &str, text: &str) -> Result<BranchChoice, Error> {
+        match text.trim().to_ascii_lowercase().as_str() {
+            "" | "both" => Ok(BranchChoice::Both),
+            "ascending" => Ok(BranchChoice::Ascending),
+            "descending" => Ok(BranchChoice::Descending),
+            _ => Err(Error::InvalidValue {
+                flag: origin.to_string(),
+                text: text.to_string(),
+                kind: "branch",
+                reason: "expected ascending, descending or both".into(),
+            }),
+        }
+    }
+
+    /// Name as written on the command line.
+    pub fn name(self) -> &'static str {
+        match self {
+            BranchChoice::Ascending => "ascending",
+            BranchChoice::Descending => "descending",
+            BranchChoice::Both => "both",
+        }
+    }
+
+    /// Whether a solution on `branch` is kept.
+    pub fn keeps(self, branch: Branch) -> bool {
+        match self {
+            BranchChoice::Both => true,
+            BranchChoice::Ascending => branch == Branch::Ascending,
+            BranchChoice::Descending => branch == Branch::Descending,
+        }
+    }
+}
+
+/// The solutions of `solved` on the kept branches, in solve order.
+pub fn kept(solved: &Solved, choice: BranchChoice) -> impl Iterator<Item = &Solution> {
+    solved
+        .solutions
+        .iter()
+        .filter(move |s| choice.keeps(s.state.branch))
+}
+
+/// Message for a solved problem none of whose solutions (on `found`
+/// branches) is on the kept branch.
+pub fn no_branch_message(found: impl Iterator<Item = Branch>, choice: BranchChoice) -> String {
+    let found: Vec<&str> = found.map(|b| b.name()).collect();
+    format!(
+        "no solution on the {} branch (the solutions found are {})",
+        choice.name(),
+        if found.is_empty() {
+            "none".to_string()
+        } else {
+            found.join(", ")
+        }
+    )
+}
+
+/// A short name for a warning, for compact human tables.
+pub fn warning_tag(w: &Warning) -> String {
+    match w {
+        Warning::Suborbital { .. } => "suborbital".to_string(),
+        Warning::LowPeriapsis { .. } => "low periapsis".to_string(),
+    }
+}
+
+/// Appends the shortest text that reads back as `x` (as
+/// [`super::csv::fmt_opt`]: no trailing `.0`); nothing for a non-finite value.
+pub fn push_float(buf: &mut Vec<u8>, x: f64) {
+    if x.is_finite() {
+        let mut b = ryu::Buffer::new();
+        let s = b.format_finite(x);
+        buf.extend_from_slice(s.strip_suffix(".0").unwrap_or(s).as_bytes());
+    }
+}
+
+/// Appends one CSV field, quoted when it holds a comma, quote or line break.
+pub fn push_csv_text(buf: &mut Vec<u8>, text: &str) {
+    if text
+        .bytes()
+        .any(|b| matches!(b, b',' | b'"' | b'\n' | b'\r'))
+    {
+        buf.push(b'"');
+        for b in text.bytes() {
+            if b == b'"' {
+                buf.push(b'"');
+            }
+            buf.push(b);
+        }
+        buf.push(b'"');
+    } else {
+        buf.extend_from_slice(text.as_bytes());
+    }
+}
+
+/// Number columns a solution row writes (9 results and 15 partials).
+const NUMBER_SLOTS: usize = 24;
+
+/// The text of the last number written in each numeric result column, so
+/// that a column that repeats from row to row (the orbit's elements in an
+/// altitude scan, the speed of the second branch) is formatted once.
+#[derive(Debug, Clone)]
+pub struct FloatMemo {
+    slots: [(u64, u8, [u8; 24]); NUMBER_SLOTS],
+}
+
+impl Default for FloatMemo {
+    fn default() -> Self {
+        FloatMemo::new()
+    }
+}
+
+impl FloatMemo {
+    /// An empty memo.
+    pub fn new() -> FloatMemo {
+        FloatMemo {
+            slots: [(0, 0, [0; 24]); NUMBER_SLOTS],
+        }
+    }
+
+    /// Appends the text of `x` (as [`push_float`]) for column `slot`.
+    fn push(&mut self, buf: &mut Vec<u8>, slot: usize, x: f64) {
+        if !x.is_finite() {
+            return;
+        }
+        let entry = &mut self.slots[slot];
+        let bits = x.to_bits();
+        if entry.1 == 0 || entry.0 != bits {
+            let mut b = ryu::Buffer::new();
+            let s = b.format_finite(x);
+            let s = s.strip_suffix(".0").unwrap_or(s).as_bytes();
+            // ryu never writes more than 24 bytes for an f64.
+            let n = s.len().min(24);
+            entry.2[..n].copy_from_slice(&s[..n]);
+            entry.1 = n as u8;
+            entry.0 = bits;
+        }
+        buf.extend_from_slice(&entry.2[..entry.1 as usize]);
+    }
+}
+
+/// A CSV record being written into a byte buffer.
+pub struct Record<'a> {
+    buf: &'a mut Vec<u8>,
+    fields: usize,
+}
+
+impl<'a> Record<'a> {
+    /// Starts a record at the end of `buf`.
+    pub fn new(buf: &'a mut Vec<u8>) -> Record<'a> {
+        Record { buf, fields: 0 }
+    }
+
+    fn sep(&mut self) {
+        if self.fields > 0 {
+            self.buf.push(b',');
+        }
+        self.fields += 1;
+    }
+
+    /// A number field (shortest round trip), empty if not finite.
+    pub fn float(&mut self, x: f64) -> &mut Self {
+        self.sep();
+        push_float(self.buf, x);
+        self
+    }
+
+    /// An optional number field; empty for `None`.
+    pub fn opt(&mut self, x: Option<f64>) -> &mut Self {
+        self.sep();
+        if let Some(x) = x {
+            push_float(self.buf, x);
+        }
+        self
+    }
+
+    /// A text field, quoted when needed.
+    pub fn text(&mut self, text: &str) -> &mut Self {
+        self.sep();
+        push_csv_text(self.buf, text);
+        self
+    }
+
+    /// `n` empty fields.
+    pub fn blanks(&mut self, n: usize) -> &mut Self {
+        for _ in 0..n {
+            self.sep();
+        }
+        self
+    }
+
+    /// The result fields of one solution: status `ok`, warnings as the
+    /// message, then the numbers of [`super::csv::RESULT_COLUMNS`] and, if
+    /// asked, the 15 partials.
+    pub fn solution(&mut self, mu_m3_s2: f64, s: &Solution, sensitivities: bool) -> &mut Self {
+        self.solution_memo(mu_m3_s2, s.into(), sensitivities, &mut FloatMemo::new())
+    }
+
+    /// As [`Record::solution`], reusing the text of numbers that repeat
+    /// from the previous row written with the same `memo`.
+    pub fn solution_memo(
+        &mut self,
+        mu_m3_s2: f64,
+        s: SolutionView,
+        sensitivities: bool,
+        memo: &mut FloatMemo,
+    ) -> &mut Self {
+        let st = s.state;
+        let c = &st.conic;
+        self.text("ok");
+        if s.warnings.is_empty() {
+            self.sep();
+        } else {
+            // Warnings are rare: building their text costs nothing overall.
+            let joined = s
+                .warnings
+                .iter()
+                .map(|w| w.to_string())
+                .collect::<Vec<_>>()
+                .join("; ");
+            self.text(&joined);
+        }
+        self.text(st.branch.name());
+        let numbers = [
+            Some(st.speed_m_s),
+            Some(st.flight_path_angle_rad.to_degrees()),
+            Some(st.true_anomaly_rad.to_degrees()),
+            Some(c.periapsis_radius_m()),
+            c.apoapsis_radius_m(),
+            c.sma_m(),
+            Some(c.ecc()),
+            c.period_s(mu_m3_s2),
+            Some(c.c3_m2_s2(mu_m3_s2)),
+        ];
+        for (slot, x) in numbers.into_iter().enumerate() {
+            self.sep();
+            if let Some(x) = x {
+                memo.push(self.buf, slot, x);
+            }
+        }
+        if sensitivities {
+            let mut slot = numbers.len();
+            for row in s.sensitivity.rows {
+                for k in 0..3 {
+                    self.sep();
+                    if let Some(r) = row {
+                        memo.push(self.buf, slot, r[k]);
+                    }
+                    slot += 1;
+                }
+            }
+        }
+        self
+    }
+
+    /// The result fields of a row that did not solve: status, message, blanks.
+    pub fn failure(&mut self, status: &str, message: &str, sensitivities: bool) -> &mut Self {
+        self.text(status).text(message);
+        let blanks = super::csv::RESULT_COLUMNS.len() - 2 + if sensitivities { 15 } else { 0 };
+        self.blanks(blanks)
+    }
+
+    /// Ends the record with a newline.
+    pub fn end(&mut self) {
+        self.buf.push(b'\n');
+        self.fields = 0;
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::inputs::{problem_from_inputs, Inputs};
+    use crate::report::csv::{failure_fields, solution_fields};
+
+    fn solved(pairs: &[(&str, &str)]) -> Solved {
+        let inputs: Inputs = pairs
+            .iter()
+            .map(|(k, v)| (k.to_string(), v.to_string()))
+            .collect();
+        crate::solve(&problem_from_inputs(&inputs).unwrap()).unwrap()
+    }
+
+    fn read_back(bytes: &[u8]) -> Vec<Vec<String>> {
+        csv::ReaderBuilder::new()
+            .has_headers(false)
+            .from_reader(bytes)
+            .records()
+            .map(|r| r.unwrap().iter().map(str::to_string).collect())
+            .collect()
+    }
+
+    #[test]
+    fn solution_record_matches_the_csv_report_fields() {
+        // A suborbital shot: its warning text holds commas, so quoting is exercised.
+        for pairs in [
+            &[
+                ("burnout-alt", "200"),
+                ("periapsis-alt", "185"),
+                ("apoapsis-alt", "35786"),
+            ][..],
+            &[
+                ("burnout-alt", "45"),
+                ("fpa", "84"),
+                ("apoapsis-alt", "250"),
+            ][..],
+            &[
+                ("burnout-alt", "300"),
+                ("periapsis-alt", "300"),
+                ("c3", "12"),
+            ][..],
+        ] {
+            let s = solved(pairs);
+            for sens in [false, true] {
+                let mut buf = Vec::new();
+                for sol in &s.solutions {
+                    Record::new(&mut buf)
+                        .solution(s.body.mu_m3_s2, sol, sens)
+                        .end();
+                }
+                let got = read_back(&buf);
+                let want: Vec<Vec<String>> = s
+                    .solutions
+                    .iter()
+                    .map(|sol| solution_fields(s.body.mu_m3_s2, sol, sens))
+                    .collect();
+                assert_eq!(got, want, "{pairs:?}");
+            }
+        }
+        let sub = solved(&[
+            ("burnout-alt", "45"),
+            ("fpa", "84"),
+            ("apoapsis-alt", "250"),
+        ]);
+        assert!(!sub.solutions[0].warnings.is_empty(), "the case must warn");
+    }
+
+    #[test]
+    fn failure_record_matches_the_csv_report_fields() {
+        let mut buf = Vec::new();
+        Record::new(&mut buf)
+            .failure("infeasible", "a \"quoted\", message", true)
+            .end();
+        assert_eq!(
+            read_back(&buf),
+            vec![failure_fields("infeasible", "a \"quoted\", message", true)]
+        );
+    }
+
+    #[test]
+    fn branch_choice_reads_names_and_rejects_others() {
+        assert_eq!(
+            BranchChoice::from_name("--branch", "").unwrap(),
+            BranchChoice::Both
+        );
+        assert_eq!(
+            BranchChoice::from_name("--branch", " Descending").unwrap(),
+            BranchChoice::Descending
+        );
+        let e = BranchChoice::from_name("branch", "up")
+            .unwrap_err()
+            .to_string();
+        assert_eq!(
+            e,
+            "invalid branch 'up' for branch: expected ascending, descending or both"
+        );
+        assert!(BranchChoice::Ascending.keeps(Branch::Ascending));
+        assert!(!BranchChoice::Ascending.keeps(Branch::Descending));
+    }
+
+    #[test]
+    fn floats_drop_the_trailing_point_and_round_trip() {
+        let mut buf = Vec::new();
+        push_float(&mut buf, 6578137.0);
+        buf.push(b' ');
+        push_float(&mut buf, 1.0 / 3.0);
+        buf.push(b' ');
+        push_float(&mut buf, f64::NAN);
+        assert_eq!(
+            String::from_utf8(buf).unwrap(),
+            "6578137 0.3333333333333333 "
+        );
+    }
+}

@@ -1,0 +1,269 @@
+//! Launch site, rotation and inclination, checked by independent vector
+//! geometry: the test builds the site, the great circle, the burnout position
+//! and velocity as 3-D vectors in a body-fixed frame at the burnout instant,
+//! and recovers inclination, apsides and the surface-relative velocity with
+//! cross products, without the product's spherical-trigonometry formulas.
+
+use crate::{run, solve_json};
+use approx::assert_relative_eq;
+use serde_json::Value;
+
+type V3 = [f64; 3];
+
+fn cross(a: V3, b: V3) -> V3 {
+    [
+        a[1] * b[2] - a[2] * b[1],
+        a[2] * b[0] - a[0] * b[2],
+        a[0] * b[1] - a[1] * b[0],
+    ]
+}
+fn dot(a: V3, b: V3) -> f64 {
+    a[0] * b[0] + a[1] * b[1] + a[2] * b[2]
+}
+fn norm(a: V3) -> f64 {
+    dot(a, a).sqrt()
+}
+fn scale(a: V3, k: f64) -> V3 {
+    [a[0] * k, a[1] * k, a[2] * k]
+}
+fn add(a: V3, b: V3) -> V3 {
+    [a[0] + b[0], a[1] + b[1], a[2] + b[2]]
+}
+
+/// Unit up, north and east vectors at geocentric latitude/longitude (rad).
+fn local_frame(lat: f64, lon: f64) -> (V3, V3, V3) {
+    let up = [lat.cos() * lon.cos(), lat.cos() * lon.sin(), lat.sin()];
+    let north = [-lat.sin() * lon.cos(), -lat.sin() * lon.sin(), lat.cos()];
+    let east = [-lon.sin(), lon.cos(), 0.0];
+    (up, north, east)
+}
+
+fn f(v: &Value, key: &str) -> f64 {
+    v[key]
+        .as_f64()
+        .unwrap_or_else(|| panic!("{key} missing in {v}"))
+}
+
+/// WGS 84 geodetic -> geocentric latitude of a surface point (NIMA TR8350.2:
+/// 1/f = 298.257223563), written out here independently.
+fn geocentric(lat_geodetic_deg: f64) -> f64 {
+    let f = 1.0 / 298.257223563;
+    ((1.0 - f) * (1.0 - f) * lat_geodetic_deg.to_radians().tan()).atan()
+}
+
+#[test]
+fn vector_geometry_recovers_inclination_apsides_and_relative_velocity() {
+    let (site_lat, site_lon, downrange_deg, incl): (f64, f64, f64, f64) = (34.2, -118.5, 6.0, 63.4);
+    let doc = solve_json(&[
+        "--burnout-alt",
+        "250km",
+        "--periapsis-alt",
+        "250km",
+        "--apoapsis-alt",
+        "1200km",
+        "--latitude",
+        "34.2",
+        "--longitude",
+        "-118.5",
+        "--downrange",
+        "6deg",
+        "--inclination",
+        "63.4",
+    ]);
+    let mu = doc["body"]["mu_m3_s2"].as_f64().unwrap();
+    let omega = 7.292115e-5; // WGS 84 rotation rate
+    let sols = doc["solutions"].as_array().unwrap();
+    assert_eq!(sols.len(), 2, "northbound and southbound launches");
+    for s in sols {
+        let r = f(&doc, "burnout_radius_m");
+        // Great circle by rotating the site vector toward the launch heading.
+        let (up1, n1, e1) = local_frame(geocentric(site_lat), site_lon.to_radians());
+        let a1 = f(s, "launch_azimuth_deg").to_radians();
+        let t1 = add(scale(n1, a1.cos()), scale(e1, a1.sin()));
+        let d = downrange_deg.to_radians();
+        let p2 = add(scale(up1, d.cos()), scale(t1, d.sin()));
+        let t2 = add(scale(up1, -d.sin()), scale(t1, d.cos()));
+        let lat2 = p2[2].asin();
+        let lon2 = p2[1].atan2(p2[0]);
+        assert_relative_eq!(
+            lat2.to_degrees(),
+            f(s, "burnout_latitude_deg"),
+            max_relative = 1e-10
+        );
+        assert_relative_eq!(
+            lon2.to_degrees(),
+            f(s, "burnout_longitude_deg"),
+            max_relative = 1e-10
+        );
+        let (up, north, east) = local_frame(lat2, lon2);
+        // Relative heading = direction of the great circle at burnout.
+        let heading = dot(t2, east)
+            .atan2(dot(t2, north))
+            .to_degrees()
+            .rem_euclid(360.0);
+        assert_relative_eq!(
+            heading,
+            f(&s["relative"], "azimuth_deg"),
+            max_relative = 1e-9
+        );
+        // Inertial velocity from speed, flight-path angle and inertial azimuth.
+        let (v, g, b) = (
+            f(s, "speed_m_s"),
+            f(s, "flight_path_angle_deg").to_radians(),
+            f(s, "azimuth_deg").to_radians(),
+        );
+        let vel = add(
+            scale(up, v * g.sin()),
+            add(
+                scale(north, v * g.cos() * b.cos()),
+                scale(east, v * g.cos() * b.sin()),
+            ),
+        );
+        let pos = scale(up, r);
+        // Inclination from the angular momentum vector.
+        let h = cross(pos, vel);
+        let i = (h[2] / norm(h)).acos().to_degrees();
+        assert_relative_eq!(i, incl, max_relative = 1e-9);
+        // Apsides from the eccentricity vector.
+        let ev = scale(
+            add(scale(cross(vel, h), 1.0 / mu), scale(pos, -1.0 / r)),
+            1.0,
+        );
+        let e = norm(ev);
+        let p = dot(h, h) / mu;
+        let re = doc["body"]["radius_m"].as_f64().unwrap();
+        assert_relative_eq!(p / (1.0 + e) - re, 250e3, max_relative = 1e-8);
+        assert_relative_eq!(p / (1.0 - e) - re, 1200e3, max_relative = 1e-8);
+        // Surface-relative velocity: v - omega x r.
+        let rel = add(vel, scale(cross([0.0, 0.0, omega], pos), -1.0));
+        assert_relative_eq!(
+            norm(rel),
+            f(&s["relative"], "speed_m_s"),
+            max_relative = 1e-12
+        );
+        let rel_g = (dot(rel, up) / norm(rel)).asin().to_degrees();
+        assert!((rel_g - f(&s["relative"], "flight_path_angle_deg")).abs() < 1e-9);
+        assert_relative_eq!(f(&s["orbit"], "inclination_deg"), incl, max_relative = 1e-9);
+    }
+}
+
+#[test]
+fn equatorial_due_east_gains_the_rotation_speed_and_due_west_pays_it() {
+    let east = solve_json(&[
+        "--burnout-alt",
+        "200",
+        "--periapsis-alt",
+        "200",
+        "--apoapsis-alt",
+        "200",
+        "--latitude",
+        "0",
+        "--azimuth",
+        "90",
+    ]);
+    let west = solve_json(&[
+        "--burnout-alt",
+        "200",
+        "--periapsis-alt",
+        "200",
+        "--apoapsis-alt",
+        "200",
+        "--latitude",
+        "0",
+        "--azimuth",
+        "270",
+    ]);
+    let r = f(&east, "burnout_radius_m");
+    let w = 7.292115e-5 * r; // WGS 84 omega times burnout radius
+    let s_e = &east["solutions"][0];
+    let s_w = &west["solutions"][0];
+    assert_relative_eq!(
+        f(s_e, "speed_m_s") - f(&s_e["relative"], "speed_m_s"),
+        w,
+        max_relative = 1e-10
+    );
+    assert_relative_eq!(
+        f(&s_w["relative"], "speed_m_s") - f(s_w, "speed_m_s"),
+        w,
+        max_relative = 1e-10
+    );
+    assert_relative_eq!(f(&east["orbit"], "inclination_deg"), 0.0, epsilon = 1e-12);
+    assert_relative_eq!(
+        f(&west["orbit"], "inclination_deg"),
+        180.0,
+        max_relative = 1e-12
+    );
+}
+
+#[test]
+fn polar_launch_gains_nothing_along_track() {
+    let doc = solve_json(&[
+        "--burnout-alt",
+        "200",
+        "--periapsis-alt",
+        "200",
+        "--apoapsis-alt",
+        "200",
+        "--latitude",
+        "10",
+        "--inclination",
+        "90",
+    ]);
+    for s in doc["solutions"].as_array().unwrap() {
+        let beta = f(s, "azimuth_deg").to_radians();
+        let rel = &s["relative"];
+        let (vr, ar) = (f(rel, "speed_m_s"), f(rel, "azimuth_deg").to_radians());
+        // Along-track (inertial direction) component of the relative velocity
+        // equals the inertial speed: rotation only adds a cross-track part.
+        assert_relative_eq!(
+            vr * (ar - beta).cos(),
+            f(s, "speed_m_s"),
+            max_relative = 1e-10
+        );
+    }
+}
+
+#[test]
+fn inclination_below_latitude_is_infeasible_naming_both() {
+    let r = run(&[
+        "solve",
+        "--burnout-alt",
+        "200",
+        "--periapsis-alt",
+        "200",
+        "--apoapsis-alt",
+        "400",
+        "--latitude",
+        "45",
+        "--inclination",
+        "30",
+    ]);
+    assert_eq!(r.code, Some(3));
+    assert_eq!(r.stderr.lines().count(), 1);
+    assert!(
+        r.stderr.contains("inclination 30 deg") && r.stderr.contains("latitude 44.8"),
+        "{}",
+        r.stderr
+    );
+}
+
+#[test]
+fn site_keys_without_a_latitude_are_a_usage_error() {
+    let r = run(&[
+        "solve",
+        "--burnout-alt",
+        "200",
+        "--periapsis-alt",
+        "200",
+        "--apoapsis-alt",
+        "400",
+        "--inclination",
+        "51",
+    ]);
+    assert_eq!(r.code, Some(2));
+    assert!(
+        r.stderr.contains("--inclination") && r.stderr.contains("--latitude"),
+        "{}",
+        r.stderr
+    );
+}
