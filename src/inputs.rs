@@ -154,7 +154,12 @@ pub fn site_from_inputs(
             } => "inclination",
             _ => "downrange",
         };
-        about_flag(inputs, key, Kind::Angle, e)
+        let kind = if key == "downrange" {
+            Kind::AngleOrLength
+        } else {
+            Kind::Angle
+        };
+        about_flag(inputs, key, kind, e)
     })?;
     Ok(Some(site))
 }
@@ -239,6 +244,24 @@ pub fn budget_from_inputs(
             v.get("fpa-alt-corr").copied().unwrap_or(0.0),
         ],
     });
+    for (corr, a, b) in [
+        ("speed-fpa-corr", "speed-sigma", "fpa-sigma"),
+        ("speed-alt-corr", "speed-sigma", "alt-sigma"),
+        ("fpa-alt-corr", "fpa-sigma", "alt-sigma"),
+    ] {
+        if v.contains_key(corr) && !(v.contains_key(a) && v.contains_key(b)) {
+            return Err(Error::Usage(format!(
+                "--{corr} correlates two burnout errors: give --{a} and --{b} with it"
+            )));
+        }
+    }
+    if let Some(e) = &errors {
+        if let Err(Error::Infeasible(msg)) = e.covariance() {
+            return Err(Error::Usage(format!(
+                "--speed-fpa-corr, --speed-alt-corr and --fpa-alt-corr together are invalid: {msg}"
+            )));
+        }
+    }
     let tol_keys = [
         "periapsis-tol",
         "apoapsis-tol",
@@ -382,7 +405,14 @@ pub fn problem_from_inputs(inputs: &Inputs) -> Result<Problem, Error> {
                     },
                 ));
             }
-            Some(std::f64::consts::FRAC_PI_2 - z)
+            // 90 - z in degrees is exact for a zenith typed in degrees;
+            // pi/2 - z in radians would lose the digits of a small angle.
+            Some(
+                match get(inputs, "zenith").and_then(crate::units::degrees_as_given) {
+                    Some(z_deg) => (90.0 - z_deg).to_radians(),
+                    None => std::f64::consts::FRAC_PI_2 - z,
+                },
+            )
         }
         (None, None) => None,
     };
@@ -472,5 +502,22 @@ mod tests {
         ]))
         .unwrap();
         assert_relative_eq!(p.body.mu_m3_s2, 3.986004418e14, max_relative = 1e-15);
+    }
+
+    #[test]
+    fn zenith_in_degrees_keeps_a_tiny_flight_path_angle() {
+        // 90 - 89.99999999981715 = 1.8285e-10 deg exactly in decimal terms;
+        // pi/2 - z in radians would carry ~1e-16 rad of rounding (4e-5 relative).
+        let p = problem_from_inputs(&inputs(&[
+            ("burnout-alt", "200"),
+            ("zenith", "89.99999999981715"),
+            ("sma", "7000"),
+        ]))
+        .unwrap();
+        assert_relative_eq!(
+            p.flight_path_angle_rad.unwrap().to_degrees(),
+            90.0 - 89.99999999981715,
+            max_relative = 1e-12
+        );
     }
 }

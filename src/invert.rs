@@ -20,6 +20,26 @@ use std::f64::consts::PI;
 /// Relative tolerance within which a burnout radius counts as at an apsis.
 pub const APSIS_TOLERANCE: f64 = 1e-12;
 
+/// Speed of light in vacuum, m/s (exact, SI definition): no two-body answer
+/// at or above it is physical.
+pub const SPEED_OF_LIGHT_M_S: f64 = 299_792_458.0;
+
+/// Checks that a computed burnout speed is finite and below the speed of light.
+///
+/// # Errors
+/// [`Error::Infeasible`] naming the speed.
+pub fn check_speed(speed_m_s: f64) -> Result<f64, Error> {
+    if speed_m_s.is_finite() && speed_m_s < SPEED_OF_LIGHT_M_S {
+        Ok(speed_m_s)
+    } else {
+        Err(Error::Infeasible(format!(
+            "the target needs a burnout speed of {} m/s, not below the speed of light {} m/s: no physical trajectory reaches it (check the target's magnitude)",
+            g(speed_m_s),
+            g(SPEED_OF_LIGHT_M_S)
+        )))
+    }
+}
+
 /// Which side of the orbit burnout is on.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub enum Branch {
@@ -235,6 +255,9 @@ pub fn speed_for_target(
     };
     let mut out = Vec::with_capacity(speeds.len());
     for v in speeds {
+        if v.is_finite() && v > 0.0 {
+            check_speed(v)?;
+        }
         if !(v.is_finite() && v > 0.0) {
             return Err(Error::Infeasible(format!(
                 "no positive burnout speed reaches {} {} {} at flight-path angle {} deg from radius {} m",
@@ -252,9 +275,11 @@ pub fn speed_for_target(
                 Conic::from_apsides(st.conic.periapsis_radius_m().min(x), x).unwrap_or(st.conic)
             }
             (Q::PeriapsisRadius, Some(ra)) => Conic::from_apsides(x, ra.max(x)).unwrap_or(st.conic),
-            (Q::PeriapsisRadius, None) => {
-                Conic::from_periapsis_ecc(x, st.conic.ecc()).unwrap_or(st.conic)
-            }
+            (Q::PeriapsisRadius, None) => st.conic,
+            (Q::Ecc, _) => st.conic.with_ecc(x),
+            (Q::Sma, None) => st.conic.with_open_inv_sma(1.0 / x),
+            (Q::C3, None) => st.conic.with_open_inv_sma(-x / mu),
+            (Q::SpecificEnergy, None) => st.conic.with_open_inv_sma(-2.0 * x / mu),
             _ => st.conic,
         };
         out.push(st);

@@ -83,6 +83,7 @@ pub fn pair_states(
         conic: *conic,
     };
     if at_periapsis || at_apoapsis {
+        crate::invert::check_speed(vt)?;
         let nu = if at_periapsis { 0.0 } else { PI };
         let s = state(Branch::Ascending, vt, 0.0, nu);
         return Ok(([s, s], 1));
@@ -106,6 +107,7 @@ pub fn pair_states(
         }
     };
     let speed = vr.hypot(vt);
+    crate::invert::check_speed(speed)?;
     let fpa = vr.atan2(vt);
     let nu = esin.atan2(ecos);
     Ok((

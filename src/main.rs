@@ -7,6 +7,27 @@ use burnout::ErrorClass;
 use clap::Parser;
 use std::process::ExitCode;
 
+/// clap's multi-line message as one line: its error text, the missing
+/// arguments or possible values, and any tip, without the usage block.
+fn one_line(text: &str) -> String {
+    let mut parts: Vec<String> = Vec::new();
+    for line in text.lines() {
+        let t = line.trim();
+        if t.is_empty() {
+            continue;
+        }
+        if t.starts_with("Usage:") || t.starts_with("For more information") {
+            break;
+        }
+        parts.push(t.trim_start_matches("error: ").to_string());
+    }
+    if parts.is_empty() {
+        "invalid arguments".into()
+    } else {
+        parts.join(" ")
+    }
+}
+
 fn main() -> ExitCode {
     let cli = match cli::Cli::try_parse() {
         Ok(c) => c,
@@ -17,17 +38,15 @@ fn main() -> ExitCode {
                 return ExitCode::SUCCESS;
             }
             if e.kind() == ErrorKind::DisplayHelpOnMissingArgumentOrSubcommand {
-                let _ = e.print();
+                eprintln!(
+                    "error: missing subcommand: expected solve, scan, batch or budget (see 'burnout --help')"
+                );
                 return ExitCode::from(2);
             }
-            let text = e.render().to_string();
-            let first = text
-                .lines()
-                .find(|l| !l.trim().is_empty())
-                .unwrap_or("invalid arguments")
-                .trim_start_matches("error: ")
-                .to_string();
-            eprintln!("error: {first} (see 'burnout --help')");
+            eprintln!(
+                "error: {} (see 'burnout --help')",
+                one_line(&e.render().to_string())
+            );
             return ExitCode::from(2);
         }
     };

@@ -568,20 +568,21 @@ impl CostFunction for Sheet<'_> {
 /// target's residual over the flight-path angle (1024 samples from -90 to
 /// 90 deg) on each sheet of states that meet the element exactly, refined
 /// with argmin's Brent root. Returns (r, v, fpa) of each root.
-fn sheet_roots(system: &System) -> Vec<(f64, f64, f64)> {
+fn sheet_roots(system: &System) -> (Vec<(f64, f64, f64)>, u64) {
     let Some(r) = system.fixed_radius_m else {
-        return Vec::new();
+        return (Vec::new(), 0);
     };
     if system.unknowns != [Unknown::Speed, Unknown::FlightPathAngle] || system.targets.len() != 2 {
-        return Vec::new();
+        return (Vec::new(), 0);
     }
     let Some(e_idx) = system
         .targets
         .iter()
         .position(|t| t.quantity.is_orbit_element())
     else {
-        return Vec::new();
+        return (Vec::new(), 0);
     };
+    let mut iterations = 0;
     let other = 1 - e_idx;
     const SAMPLES: usize = 1024;
     let lim = FRAC_PI_2 * (1.0 - 1e-7);
@@ -617,6 +618,7 @@ fn sheet_roots(system: &System) -> Vec<(f64, f64, f64)> {
                 .configure(|st| st.param(0.5 * (grid[j] + grid[j + 1])).max_iters(200))
                 .run()
             {
+                iterations += res.state().get_iter();
                 if let Some(g) = res.state().get_best_param().copied() {
                     if let (Some(v), Some(f)) = (sheet.speed(g), sheet.eval(g)) {
                         // A sign change across a jump (e.g. time to apoapsis
@@ -629,7 +631,7 @@ fn sheet_roots(system: &System) -> Vec<(f64, f64, f64)> {
             }
         }
     }
-    out
+    (out, iterations)
 }
 
 /// Starting points: closed-form states where some pair of orbit-element
@@ -746,12 +748,15 @@ fn solve_system(
         ));
     }
     let mut bracketed = false;
+    let mut bracket_iterations = 0;
     let starts: Vec<Vec<f64>> = match start {
         Some((r, v, gamma)) => vec![system.coords_of(r, v, gamma)],
         None => {
             // Bracketed roots first (complete along each sheet), then the
             // closed-form and grid starts.
-            let mut v: Vec<Vec<f64>> = sheet_roots(system)
+            let (roots, iters) = sheet_roots(system);
+            bracket_iterations = iters;
+            let mut v: Vec<Vec<f64>> = roots
                 .into_iter()
                 .map(|(r, v, g)| system.coords_of(r, v, g))
                 .collect();
@@ -801,7 +806,7 @@ fn solve_system(
             termination: best.termination.clone(),
         });
     }
-    let iterations = best.iterations;
+    let iterations = best.iterations + bracket_iterations;
     let termination = best.termination.clone();
     let mut states: Vec<BurnoutState> = Vec::new();
     for run in runs.iter().filter(|r| max_abs(&r.residuals) <= tol) {
@@ -812,7 +817,10 @@ fn solve_system(
                 && (s.radius_m - r).abs() <= 1e-7 * r
         });
         if !dup {
-            if let Ok(st) = forward_state(mu, r, v, gamma) {
+            if let (Ok(_), Ok(st)) = (
+                crate::invert::check_speed(v),
+                forward_state(mu, r, v, gamma),
+            ) {
                 states.push(st);
             }
         }

@@ -2,8 +2,11 @@
 //! a burnout state to its orbit.
 //!
 //! An orbit is held as periapsis radius and eccentricity, plus the apoapsis
-//! radius for ellipses. Keeping the apoapsis as given (rather than recomputing
-//! it from `e`) keeps differences such as `ra - r` exact near apoapsis.
+//! radius for ellipses and the inverse semi-major axis 1/a. Keeping each as
+//! given or as computed from the energy (rather than recomputing one from
+//! another) keeps differences such as `ra - r` exact near apoapsis, a given
+//! small eccentricity exact near circular, and C3 = -mu/a exact on
+//! near-radial and near-parabolic open orbits, where 1 - e cancels.
 
 use crate::error::{finite, positive, Error};
 use std::f64::consts::PI;
@@ -14,6 +17,8 @@ pub struct Conic {
     periapsis_radius_m: f64,
     ecc: f64,
     apoapsis_radius_m: Option<f64>,
+    /// 1/a, 1/m: positive for ellipses, 0 for the parabola, negative for hyperbolas.
+    inv_sma_per_m: f64,
 }
 
 /// The shape class of a conic.
@@ -46,12 +51,29 @@ impl Conic {
                 crate::error::g(apoapsis_radius_m)
             )));
         }
+        let sum = apoapsis_radius_m + periapsis_radius_m;
         Ok(Conic {
             periapsis_radius_m,
-            ecc: (apoapsis_radius_m - periapsis_radius_m)
-                / (apoapsis_radius_m + periapsis_radius_m),
+            ecc: (apoapsis_radius_m - periapsis_radius_m) / sum,
             apoapsis_radius_m: Some(apoapsis_radius_m),
+            inv_sma_per_m: 2.0 / sum,
         })
+    }
+
+    /// An ellipse from its apsides with a given eccentricity kept as given
+    /// (a small eccentricity recomputed from rounded apsides would lose its
+    /// relative digits).
+    ///
+    /// # Errors
+    /// As [`Conic::from_apsides`].
+    pub fn from_apsides_keeping_ecc(
+        periapsis_radius_m: f64,
+        apoapsis_radius_m: f64,
+        ecc: f64,
+    ) -> Result<Conic, Error> {
+        let mut c = Conic::from_apsides(periapsis_radius_m, apoapsis_radius_m)?;
+        c.ecc = check_ecc(ecc)?;
+        Ok(c)
     }
 
     /// Any conic from periapsis radius, m, and eccentricity.
@@ -70,6 +92,30 @@ impl Conic {
             periapsis_radius_m,
             ecc,
             apoapsis_radius_m: apo,
+            inv_sma_per_m: (1.0 - ecc) / periapsis_radius_m,
+        })
+    }
+
+    /// An open conic (parabola or hyperbola) from periapsis radius, m, and a
+    /// given inverse semi-major axis 1/a (1/m, 0 or negative) kept exactly,
+    /// e = 1 - rp/a.
+    ///
+    /// # Errors
+    /// Non-positive periapsis; a positive `inv_sma_per_m` (that is an ellipse).
+    pub fn open_from_periapsis_inv_sma(
+        periapsis_radius_m: f64,
+        inv_sma_per_m: f64,
+    ) -> Result<Conic, Error> {
+        positive("periapsis radius", periapsis_radius_m, "m")?;
+        finite("inverse semi-major axis", inv_sma_per_m)?;
+        if inv_sma_per_m > 0.0 {
+            return Err(Error::Infeasible("an open orbit needs 1/a <= 0".into()));
+        }
+        Ok(Conic {
+            periapsis_radius_m,
+            ecc: 1.0 - periapsis_radius_m * inv_sma_per_m,
+            apoapsis_radius_m: None,
+            inv_sma_per_m,
         })
     }
 
@@ -88,26 +134,29 @@ impl Conic {
         self.ecc
     }
 
-    /// The conic's class.
+    /// The conic's class: closed or open by its energy (1/a), not by a
+    /// rounded eccentricity.
     pub fn kind(&self) -> ConicKind {
-        if self.ecc == 0.0 {
-            ConicKind::Circular
-        } else if self.ecc < 1.0 {
-            ConicKind::Elliptic
-        } else if exactly(self.ecc, 1.0) {
+        if self.apoapsis_radius_m.is_some() {
+            if exactly(self.ecc, 0.0) {
+                ConicKind::Circular
+            } else {
+                ConicKind::Elliptic
+            }
+        } else if exactly(self.inv_sma_per_m, 0.0) {
             ConicKind::Parabolic
         } else {
             ConicKind::Hyperbolic
         }
     }
 
-    /// Semi-major axis, m: (rp + ra)/2 for ellipses, rp/(1 - e) < 0 for
+    /// Semi-major axis, m: (rp + ra)/2 for ellipses, 1/(1/a) < 0 for
     /// hyperbolas, `None` for a parabola.
     pub fn sma_m(&self) -> Option<f64> {
         match self.apoapsis_radius_m {
             Some(ra) => Some(0.5 * (self.periapsis_radius_m + ra)),
-            None if exactly(self.ecc, 1.0) => None,
-            None => Some(self.periapsis_radius_m / (1.0 - self.ecc)),
+            None if exactly(self.inv_sma_per_m, 0.0) => None,
+            None => Some(1.0 / self.inv_sma_per_m),
         }
     }
 
@@ -123,7 +172,7 @@ impl Conic {
     pub fn c3_m2_s2(&self, mu_m3_s2: f64) -> f64 {
         match self.apoapsis_radius_m {
             Some(ra) => -2.0 * mu_m3_s2 / (self.periapsis_radius_m + ra),
-            None => mu_m3_s2 * (self.ecc - 1.0) / self.periapsis_radius_m,
+            None => -mu_m3_s2 * self.inv_sma_per_m,
         }
     }
 
@@ -149,6 +198,23 @@ impl Conic {
     /// or infinite outside a hyperbola's asymptotes.
     pub fn radius_at_m(&self, nu_rad: f64) -> f64 {
         self.semi_latus_rectum_m() / (1.0 + self.ecc * nu_rad.cos())
+    }
+
+    /// The same conic with the eccentricity replaced by a given value (used
+    /// where the user targeted the eccentricity, so that it is echoed exactly
+    /// rather than recomputed from a rounded state).
+    pub(crate) fn with_ecc(mut self, ecc: f64) -> Conic {
+        self.ecc = ecc;
+        self
+    }
+
+    /// For an open conic, the same conic with 1/a replaced by a given value
+    /// (a targeted C3 or sma echoed exactly); ellipses are returned unchanged.
+    pub(crate) fn with_open_inv_sma(mut self, inv_sma_per_m: f64) -> Conic {
+        if self.apoapsis_radius_m.is_none() && inv_sma_per_m < 0.0 {
+            self.inv_sma_per_m = inv_sma_per_m;
+        }
+        self
     }
 }
 
@@ -213,21 +279,32 @@ pub fn forward(
     let conic = if q < 2.0 {
         // ra = 2a - rp with a = r / (2 - Q): no 1 - e cancellation.
         let ra = 2.0 * radius_m / (2.0 - q) - rp;
+        // A closed orbit keeps e below 1 even when rounding says otherwise
+        // (a vertical shot is the limit of an ellipse with rp -> 0).
         let ecc = if ecc < 1.0 {
             ecc
         } else {
-            (ra - rp) / (ra + rp)
+            ((ra - rp) / (ra + rp)).min(1.0 - f64::EPSILON / 2.0)
         };
         Conic {
             periapsis_radius_m: rp,
             ecc,
             apoapsis_radius_m: Some(ra),
+            inv_sma_per_m: (2.0 - q) / radius_m,
         }
     } else {
+        // 1/a from the energy, (2 - Q)/r: C3 and sma stay exact where
+        // e - 1 cancels (near-radial and near-parabolic hyperbolas).
+        let inv_a = (2.0 - q) / radius_m;
         Conic {
             periapsis_radius_m: rp,
-            ecc: if exactly(q, 2.0) { 1.0 } else { ecc.max(1.0) },
+            ecc: if exactly(q, 2.0) {
+                1.0
+            } else {
+                ecc.max(1.0 + f64::EPSILON)
+            },
             apoapsis_radius_m: None,
+            inv_sma_per_m: inv_a,
         }
     };
     Ok((conic, nu))
@@ -351,5 +428,21 @@ mod tests {
     fn forward_rejects_out_of_range_angles() {
         assert!(forward(MU, 7e6, 7e3, 2.0).is_err());
         assert!(forward(MU, 7e6, -7e3, 0.0).is_err());
+    }
+
+    #[test]
+    fn near_radial_hyperbola_keeps_its_c3() {
+        // Regression: C3 from mu (e - 1)/rp cancelled for e -> 1 with rp -> 0;
+        // the energy form v^2 - 2 mu/r does not (checked against a 50-digit
+        // independent computation: 1625257.673 m^2/s^2 at 300 km, 11 km/s).
+        let r = crate::body::EARTH_RADIUS_M + 300e3;
+        let (c, _) = forward(MU, r, 11_000.0, 89.99999f64.to_radians()).unwrap();
+        assert_relative_eq!(
+            c.c3_m2_s2(MU),
+            11_000.0f64.powi(2) - 2.0 * MU / r,
+            max_relative = 1e-12
+        );
+        assert_relative_eq!(c.c3_m2_s2(MU), 1_625_257.673, max_relative = 1e-9);
+        assert_eq!(c.kind(), ConicKind::Hyperbolic);
     }
 }

@@ -13,13 +13,44 @@ use std::fs::File;
 use std::io::Write;
 use std::path::{Path, PathBuf};
 
+/// Where the bytes go: a temporary file renamed into place, or, for an
+/// existing device or pipe (e.g. `/dev/null`, a FIFO), the target itself:
+/// those hold no data that could be clobbered or left partial.
+#[derive(Debug)]
+enum Sink {
+    Temp(tempfile::NamedTempFile),
+    Direct(File),
+}
+
 /// A file being written under a temporary name.
 #[derive(Debug)]
 pub struct AtomicFile {
-    temp: tempfile::NamedTempFile,
+    sink: Sink,
     path: PathBuf,
     force: bool,
     flag: &'static str,
+}
+
+/// The path a write to `path` should replace: a symbolic link is followed
+/// (to its target, even a dangling one) so that the link itself survives.
+fn resolve_links(path: &Path) -> PathBuf {
+    let mut p = path.to_path_buf();
+    for _ in 0..40 {
+        match std::fs::symlink_metadata(&p) {
+            Ok(m) if m.file_type().is_symlink() => match std::fs::read_link(&p) {
+                Ok(target) => {
+                    p = if target.is_absolute() {
+                        target
+                    } else {
+                        p.parent().unwrap_or(Path::new(".")).join(target)
+                    };
+                }
+                Err(_) => break,
+            },
+            _ => break,
+        }
+    }
+    p
 }
 
 impl AtomicFile {
@@ -32,6 +63,23 @@ impl AtomicFile {
     /// temporary file.
     pub fn create(path: &Path, force: bool, flag: &'static str) -> Result<AtomicFile, Error> {
         let shown = path.display();
+        let target = resolve_links(path);
+        if let Ok(meta) = std::fs::metadata(&target) {
+            if !meta.is_file() && !meta.is_dir() {
+                // A device or pipe: write straight into it.
+                let file = std::fs::OpenOptions::new()
+                    .write(true)
+                    .open(&target)
+                    .map_err(|e| Error::Usage(format!("cannot write {flag} '{shown}': {e}")))?;
+                return Ok(AtomicFile {
+                    sink: Sink::Direct(file),
+                    path: path.to_path_buf(),
+                    force,
+                    flag,
+                });
+            }
+        }
+        let path = target.as_path();
         if path.is_dir() {
             return Err(Error::Usage(format!(
                 "{flag} '{shown}' is a directory: expected a file name"
@@ -68,7 +116,7 @@ impl AtomicFile {
             ))
         })?;
         Ok(AtomicFile {
-            temp,
+            sink: Sink::Temp(temp),
             path: path.to_path_buf(),
             force,
             flag,
@@ -80,14 +128,21 @@ impl AtomicFile {
         &self.path
     }
 
-    /// The temporary file's path (for tests and messages).
+    /// The temporary file's path (for tests and messages); the target itself
+    /// for a device or pipe.
     pub fn temp_path(&self) -> &Path {
-        self.temp.path()
+        match &self.sink {
+            Sink::Temp(t) => t.path(),
+            Sink::Direct(_) => &self.path,
+        }
     }
 
     /// The file to write into.
     pub fn file(&mut self) -> &mut File {
-        self.temp.as_file_mut()
+        match &mut self.sink {
+            Sink::Temp(t) => t.as_file_mut(),
+            Sink::Direct(f) => f,
+        }
     }
 
     /// Flushes and renames the temporary file to the final name. Without
@@ -98,14 +153,17 @@ impl AtomicFile {
     pub fn commit(mut self) -> Result<(), Error> {
         let shown = self.path.display().to_string();
         let flag = self.flag;
-        self.temp
-            .as_file_mut()
+        self.file()
             .flush()
             .map_err(|e| Error::Usage(format!("cannot write {flag} '{shown}': {e}")))?;
+        let temp = match self.sink {
+            Sink::Direct(_) => return Ok(()),
+            Sink::Temp(t) => t,
+        };
         let result = if self.force {
-            self.temp.persist(&self.path).map(|_| ())
+            temp.persist(&self.path).map(|_| ())
         } else {
-            self.temp.persist_noclobber(&self.path).map(|_| ())
+            temp.persist_noclobber(&self.path).map(|_| ())
         };
         result.map_err(|e| {
             if e.error.kind() == std::io::ErrorKind::AlreadyExists {
@@ -238,5 +296,36 @@ mod tests {
             e.starts_with("--plot '") && e.contains("is a directory"),
             "{e}"
         );
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn forced_write_through_a_symlink_keeps_the_link_and_replaces_its_target() {
+        let dir = tempfile::tempdir().unwrap();
+        let real = dir.path().join("real.csv");
+        let link = dir.path().join("link.csv");
+        std::fs::write(&real, b"old").unwrap();
+        std::os::unix::fs::symlink(&real, &link).unwrap();
+        let mut f = AtomicFile::create(&link, true, "--out").unwrap();
+        f.file().write_all(b"new").unwrap();
+        f.commit().unwrap();
+        assert!(std::fs::symlink_metadata(&link)
+            .unwrap()
+            .file_type()
+            .is_symlink());
+        assert_eq!(std::fs::read(&real).unwrap(), b"new");
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn device_is_written_directly_without_force() {
+        let mut f = AtomicFile::create(Path::new("/dev/null"), false, "--out").unwrap();
+        f.file().write_all(b"discarded").unwrap();
+        f.commit().unwrap();
+        use std::os::unix::fs::FileTypeExt;
+        assert!(std::fs::metadata("/dev/null")
+            .unwrap()
+            .file_type()
+            .is_char_device());
     }
 }

@@ -361,8 +361,13 @@ impl Plan {
     pub fn inputs_at(&self, si: &[f64]) -> Inputs {
         let mut inputs = self.base.clone();
         for (axis, v) in self.axes.iter().zip(si) {
-            let unit = si_unit_text(axis.grid.kind());
-            inputs.insert(axis.key.clone(), format!("{v} {unit}").trim().to_string());
+            // Angles in degrees, so that a message about the point quotes
+            // the value as the user wrote it.
+            let text = match axis.grid.kind() {
+                Kind::Angle | Kind::AngleOrLength => format!("{} deg", v.to_degrees()),
+                kind => format!("{v} {}", si_unit_text(kind)).trim().to_string(),
+            };
+            inputs.insert(axis.key.clone(), text);
         }
         inputs
     }
@@ -407,7 +412,8 @@ impl Plan {
                     if !(0.0..=std::f64::consts::PI).contains(&v) {
                         return false;
                     }
-                    p.flight_path_angle_rad = Some(std::f64::consts::FRAC_PI_2 - v);
+                    // As the input reader does for a zenith in degrees.
+                    p.flight_path_angle_rad = Some((90.0 - v.to_degrees()).to_radians());
                 }
                 Setter::Speed => {
                     if !usable(v) {

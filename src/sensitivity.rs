@@ -9,7 +9,7 @@
 //! - de = cos(nu) dX + sin(nu) dY (at e = 0 we take nu = 0: burnout at
 //!   periapsis, the one-sided derivative in the direction of increasing speed);
 //! - dp = (2p/v) dv + (2p/r) dr - 2 p tan(g) dg;
-//! - drp = dp/(1+e) - p de/(1+e)^2,  dra = dp/(1-e) + p de/(1-e)^2;
+//! - drp = dp/(1+e) - p de/(1+e)^2,  dra = 2 da - drp (from ra = 2a - rp);
 //! - da = (2 a^2 Q / (r v)) dv + (2 a^2 / r^2) dr;  dT = (3 T / (2 a)) da.
 
 /// Row labels of the sensitivity matrix (machine keys).
@@ -62,9 +62,9 @@ pub fn partials_per_rad(
     let dp = if c == 0.0 { [0.0, 0.0, 0.0] } else { dp };
     let drp: [f64; 3] =
         std::array::from_fn(|k| dp[k] / (1.0 + e) - p * de[k] / ((1.0 + e) * (1.0 + e)));
-    let closed = e < 1.0;
-    let dra = closed
-        .then(|| std::array::from_fn(|k| dp[k] / (1.0 - e) + p * de[k] / ((1.0 - e) * (1.0 - e))));
+    // Closed versus open by the energy (Q < 2), as in the forward map, not
+    // by a rounded eccentricity; a near-radial ellipse keeps its rows.
+    let closed = q < 2.0;
     let two_minus_q = 2.0 - q;
     let (da, dt) = if two_minus_q != 0.0 {
         let a = r / two_minus_q;
@@ -76,6 +76,12 @@ pub fn partials_per_rad(
         (Some(da), dt)
     } else {
         (None, None)
+    };
+    // ra = 2a - rp: well conditioned for every ellipse, near-radial included
+    // (p / (1 - e) is 0/0 there).
+    let dra = match (closed, da) {
+        (true, Some(da)) => Some(std::array::from_fn(|k| 2.0 * da[k] - drp[k])),
+        _ => None,
     };
     Sensitivity {
         rows: [Some(drp), dra, da, Some(de), dt],

@@ -240,7 +240,7 @@ pub fn conic_from_pair(mu_m3_s2: f64, a: &Target, b: &Target) -> Result<Conic, E
                     g(v)
                 )));
             }
-            Conic::from_apsides(u * (1.0 - v) / (1.0 + v), u)
+            Conic::from_apsides_keeping_ecc(u * (1.0 - v) / (1.0 + v), u, v)
         }
         (Q::PeriapsisRadius, Q::SemiLatusRectum) => {
             if v < u {
@@ -272,7 +272,7 @@ pub fn conic_from_pair(mu_m3_s2: f64, a: &Target, b: &Target) -> Result<Conic, E
         (Q::Ecc, Q::SemiLatusRectum) => {
             let rp = v / (1.0 + u);
             if u < 1.0 {
-                Conic::from_apsides(rp, v / (1.0 - u))
+                Conic::from_apsides_keeping_ecc(rp, v / (1.0 - u), u)
             } else {
                 Conic::from_periapsis_ecc(rp, u)
             }
@@ -303,7 +303,8 @@ fn conic_from_size(mu: f64, x: &Target, s: &Target, alpha: f64) -> Result<Conic,
                 }
                 Conic::from_apsides(u, 2.0 * a - u)
             } else {
-                Conic::from_periapsis_ecc(u, 1.0 - u * alpha)
+                // Keep the given size (C3, sma) exact: e = 1 - rp/a derived.
+                Conic::open_from_periapsis_inv_sma(u, alpha)
             }
         }
         Q::ApoapsisRadius => {
@@ -353,9 +354,9 @@ fn conic_from_size(mu: f64, x: &Target, s: &Target, alpha: f64) -> Result<Conic,
             }
             let a = 1.0 / alpha;
             if alpha > 0.0 {
-                Conic::from_apsides(a * (1.0 - u), a * (1.0 + u))
+                Conic::from_apsides_keeping_ecc(a * (1.0 - u), a * (1.0 + u), u)
             } else {
-                Conic::from_periapsis_ecc(a * (1.0 - u), u)
+                Conic::open_from_periapsis_inv_sma(a * (1.0 - u), alpha).map(|c| c.with_ecc(u))
             }
         }
         Q::SemiLatusRectum => {
@@ -372,7 +373,7 @@ fn conic_from_size(mu: f64, x: &Target, s: &Target, alpha: f64) -> Result<Conic,
             if ecc < 1.0 {
                 Conic::from_apsides(u / (1.0 + ecc), u / (1.0 - ecc))
             } else {
-                Conic::from_periapsis_ecc(u / (1.0 + ecc), ecc)
+                Conic::open_from_periapsis_inv_sma(u / (1.0 + ecc), alpha)
             }
         }
         _ => Err(Error::Usage(format!(
@@ -479,5 +480,19 @@ mod tests {
         assert!(
             conic_from_pair(MU, &t(Q::PeriapsisRadius, -1.0), &t(Q::ApoapsisRadius, 7e6)).is_err()
         );
+    }
+
+    #[test]
+    fn given_size_and_small_ecc_are_echoed_exactly() {
+        // Regression: a given C3 or sma on a near-parabolic hyperbola, and a
+        // given tiny eccentricity, were recomputed from rounded derived values.
+        let c3 = 0.010968584847934663;
+        let c = conic_from_pair(MU, &t(Q::PeriapsisRadius, 8e6), &t(Q::C3, c3)).unwrap();
+        assert_relative_eq!(c.c3_m2_s2(MU), c3, max_relative = 1e-15);
+        let c = conic_from_pair(MU, &t(Q::Sma, -3.2e17), &t(Q::PeriapsisRadius, 3e6)).unwrap();
+        assert_relative_eq!(c.sma_m().unwrap(), -3.2e17, max_relative = 1e-15);
+        let e = 1.0825215416371034e-12;
+        let c = conic_from_pair(MU, &t(Q::ApoapsisRadius, 24_652_674.5), &t(Q::Ecc, e)).unwrap();
+        assert_eq!(c.ecc(), e);
     }
 }

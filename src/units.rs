@@ -243,7 +243,12 @@ pub fn parse(flag: &str, text: &str, kind: Kind) -> Result<Parsed, Error> {
         .find(|(list, _)| list.iter().any(|(u, _)| *u == unit))
     {
         return Err(fail(format!(
-            "'{unit}' is a {} unit (expected {})",
+            "'{unit}' is {} {} unit (expected {})",
+            if other.name().starts_with(['a', 'e', 'i', 'o', 'u']) {
+                "an"
+            } else {
+                "a"
+            },
             other.name(),
             kind.expected()
         )));
@@ -252,6 +257,19 @@ pub fn parse(flag: &str, text: &str, kind: Kind) -> Result<Parsed, Error> {
         "unknown unit '{unit}' (expected {})",
         kind.expected()
     )))
+}
+
+/// The number of an angle given in degrees (bare or `deg`), as typed;
+/// `None` for other units or unparseable text. Lets a caller form
+/// differences such as 90 deg - zenith in degrees, exactly, before the
+/// conversion to radians.
+pub fn degrees_as_given(text: &str) -> Option<f64> {
+    let (num, unit) = split(text.trim());
+    if unit.is_empty() || unit == "deg" {
+        num.parse::<f64>().ok().filter(|v| v.is_finite())
+    } else {
+        None
+    }
 }
 
 /// Parses a value and returns only its SI magnitude.

@@ -43,6 +43,27 @@ pub fn run(args: Args) -> Result<i32, Error> {
     };
     let batch = Batch::open(BufReader::with_capacity(1 << 16, input))
         .map_err(|e| Error::Usage(format!("{e} ('{shown}')")))?;
+    if let (Some(out), false) = (&args.out, shown == "-") {
+        let same = match (
+            std::fs::canonicalize(out),
+            std::fs::canonicalize(&args.input),
+        ) {
+            (Ok(a), Ok(b)) => a == b,
+            _ => false,
+        };
+        if same {
+            return Err(Error::Usage(format!(
+                "--out '{}' is the batch input: write the results to another file",
+                out.display()
+            )));
+        }
+    }
+    // Claim the output before any warning, so that an error is the only line.
+    let mut out_file = args
+        .out
+        .as_deref()
+        .map(|p| AtomicFile::create(p, args.force, "--out"))
+        .transpose()?;
     if batch.is_empty() {
         eprintln!("warning: '{shown}' is empty: no header and no rows");
     }
@@ -59,11 +80,6 @@ pub fn run(args: Args) -> Result<i32, Error> {
             if many { "s" } else { "" },
         );
     }
-    let mut out_file = args
-        .out
-        .as_deref()
-        .map(|p| AtomicFile::create(p, args.force, "--out"))
-        .transpose()?;
     let opts = BatchOptions {
         sensitivities: args.sensitivities,
         parallel: true,

@@ -84,6 +84,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
             flags.insert(k.to_string(), v.clone());
         }
     }
+    super::reject_empty(&flags)?;
     let inputs = overlay(args.problem.inputs()?, &flags);
     let (errors, tolerances) = budget_from_inputs(&inputs)?;
     if errors.is_none() && tolerances.is_none() {

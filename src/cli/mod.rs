@@ -192,6 +192,7 @@ impl ProblemArgs {
     /// The case file's inputs (if any) with the flags laid over them.
     pub fn inputs(&self) -> Result<Inputs, Error> {
         let flags = self.flag_inputs();
+        reject_empty(&flags)?;
         match &self.case {
             None => Ok(flags),
             Some(path) => {
@@ -203,6 +204,24 @@ impl ProblemArgs {
             }
         }
     }
+}
+
+/// A flag given with an empty value is an error (an empty cell means "not
+/// given" only in batch files).
+pub fn reject_empty(flags: &Inputs) -> Result<(), Error> {
+    for (key, text) in flags {
+        if text.trim().is_empty() {
+            return Err(Error::InvalidValue {
+                flag: format!("--{key}"),
+                text: text.clone(),
+                kind: burnout::inputs::kind_of(key)
+                    .map(|k| k.name())
+                    .unwrap_or("value"),
+                reason: "empty value".into(),
+            });
+        }
+    }
+    Ok(())
 }
 
 /// Runs the parsed command; returns the process exit code.

@@ -163,7 +163,10 @@ pub fn run(args: Args) -> Result<i32, Error> {
             "error: no point of the scan solved ({} infeasible, {} invalid): see the status column",
             report.infeasible, report.invalid
         );
-        return Ok(if report.infeasible > 0 { 3 } else { 2 });
+        // The rows (with their reasons) are the scan's result, so they are
+        // written; the run as a whole did not solve: exit 3, like a batch
+        // whose rows failed.
+        return Ok(3);
     }
     let table_on_stdout = format == ScanFormat::Table && args.out.is_none();
     if !table_on_stdout {

@@ -494,3 +494,92 @@ fn case_file_with_text_value_is_a_usage_error_naming_the_key() {
     let p = path.to_string_lossy();
     assert_rejected(&["--case", &p], &[2], &["periapsis-alt", "two hundred"]);
 }
+
+#[test]
+fn empty_flag_value_is_an_error_not_a_missing_flag() {
+    assert_rejected(
+        &with_burnout(&["--periapsis-alt", "185", "--apoapsis-alt", ""]),
+        &[2],
+        &["--apoapsis-alt", "empty value"],
+    );
+    assert_rejected(
+        &with_burnout(&[
+            "--periapsis-alt",
+            "185",
+            "--apoapsis-alt",
+            "300",
+            "--body",
+            " ",
+        ]),
+        &[2],
+        &["--body", "empty value"],
+    );
+}
+
+#[test]
+fn tiny_negative_sma_needing_a_superluminal_speed_is_infeasible() {
+    // sma -1e-20 m is a hyperbola whose C3 needs ~6e15 m/s at burnout.
+    assert_rejected(
+        &with_burnout(&["--periapsis-alt", "185", "--sma", "-1e-20m"]),
+        &[3],
+        &["speed of light"],
+    );
+}
+
+#[test]
+fn clap_errors_stay_one_line_and_keep_their_detail() {
+    let r = run(&["solve", "--format", "JSON", "--burnout-alt", "1"]);
+    assert_eq!(r.code, Some(2));
+    assert_eq!(r.stderr.lines().count(), 1, "{}", r.stderr);
+    assert!(r.stderr.contains("possible values"), "{}", r.stderr);
+    let r = run(&["batch"]);
+    assert_eq!(r.code, Some(2));
+    assert_eq!(r.stderr.lines().count(), 1, "{}", r.stderr);
+    assert!(r.stderr.contains("<INPUT.csv>"), "{}", r.stderr);
+    let r = run(&[]);
+    assert_eq!(r.code, Some(2));
+    assert_eq!(r.stderr.lines().count(), 1, "{}", r.stderr);
+}
+
+#[test]
+fn invalid_correlation_set_names_the_correlation_flags() {
+    let r = run(&[
+        "budget",
+        "--burnout-alt",
+        "200",
+        "--periapsis-alt",
+        "185",
+        "--apoapsis-alt",
+        "35786",
+        "--speed-sigma",
+        "2m/s",
+        "--fpa-sigma",
+        "0.1",
+        "--alt-sigma",
+        "1",
+        "--speed-fpa-corr",
+        "0.9",
+        "--speed-alt-corr",
+        "0.9",
+        "--fpa-alt-corr",
+        "-0.9",
+    ]);
+    assert_eq!(r.code, Some(2));
+    assert_eq!(r.stderr.lines().count(), 1);
+    assert!(r.stderr.contains("--fpa-alt-corr"), "{}", r.stderr);
+    let r = run(&[
+        "budget",
+        "--burnout-alt",
+        "200",
+        "--periapsis-alt",
+        "185",
+        "--apoapsis-alt",
+        "35786",
+        "--speed-sigma",
+        "2m/s",
+        "--speed-fpa-corr",
+        "0.3",
+    ]);
+    assert_eq!(r.code, Some(2));
+    assert!(r.stderr.contains("--fpa-sigma"), "{}", r.stderr);
+}

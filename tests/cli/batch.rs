@@ -346,3 +346,32 @@ fn many_rows_keep_their_order_across_parallel_chunks() {
         assert_eq!(row[5], want, "row {i}");
     }
 }
+
+#[test]
+fn output_naming_the_input_is_refused_even_with_force() {
+    let input = b"burnout-alt,periapsis-alt,apoapsis-alt\n200,185,35786\n";
+    let (r, dir) = batch(input, &["--out", "cases.csv", "--force"]);
+    assert_eq!(r.code, Some(2));
+    assert_eq!(r.stderr.lines().count(), 1, "{}", r.stderr);
+    assert!(r.stderr.contains("is the batch input"), "{}", r.stderr);
+    assert_eq!(std::fs::read(dir.path().join("cases.csv")).unwrap(), input);
+}
+
+#[test]
+fn refused_output_is_the_only_stderr_line_even_with_unknown_columns() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("cases.csv"),
+        b"burnout-alt,periapsis-alt,apoapsis-alt,notes\n200,185,35786,x\n",
+    )
+    .unwrap();
+    std::fs::write(dir.path().join("out.csv"), b"keep").unwrap();
+    let r = run_in(
+        dir.path(),
+        &["batch", "cases.csv", "--out", "out.csv"],
+        None,
+    );
+    assert_eq!(r.code, Some(2));
+    assert_eq!(r.stderr.lines().count(), 1, "{}", r.stderr);
+    assert_eq!(std::fs::read(dir.path().join("out.csv")).unwrap(), b"keep");
+}

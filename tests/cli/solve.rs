@@ -930,3 +930,29 @@ fn sensitivities_match_central_differences_of_the_forward_problem() {
         }
     }
 }
+
+#[test]
+fn vertical_shot_is_closed_with_every_sensitivity_row() {
+    // Straight up at 7.8 km/s from 200 km: a near-rectilinear ellipse. Its
+    // apoapsis follows from energy alone, 1/ra = 1/r - v^2/(2 mu).
+    let doc = crate::solve_json(&["--burnout-alt", "200", "--speed", "7.8", "--fpa", "90"]);
+    let mu = doc["body"]["mu_m3_s2"].as_f64().unwrap();
+    let r = doc["burnout_radius_m"].as_f64().unwrap();
+    let ra = doc["orbit"]["apoapsis_radius_m"].as_f64().unwrap();
+    approx::assert_relative_eq!(
+        ra,
+        1.0 / (1.0 / r - 7800.0f64.powi(2) / (2.0 * mu)),
+        max_relative = 1e-12
+    );
+    // Closed: e just below 1 (serde_json's default parser may round the
+    // printed 0.9999999999999999 up, so check the text), sma present.
+    assert_ne!(doc["orbit"]["ecc"].to_string(), "1.0");
+    assert!(doc["orbit"]["sma_m"].is_number());
+    let m = doc["solutions"][0]["sensitivity"]["matrix"]
+        .as_array()
+        .unwrap();
+    assert!(m.iter().all(|row| row.is_array()), "{m:?}");
+    // d ra / d v from energy: dra/dv = 2 v ra^2 / (2 mu) ... = v ra^2 / mu.
+    let d = m[1][0].as_f64().unwrap();
+    approx::assert_relative_eq!(d, 7800.0 * ra * ra / mu, max_relative = 1e-6);
+}
