@@ -179,6 +179,9 @@ pub fn parse_range(flag: &str, text: &str, kind: Kind) -> Result<Grid, Error> {
     let Some(dots) = text.find("..") else {
         return Err(fail("expected START..END:STEP or START..END/N".into()));
     };
+    if text[dots..].starts_with("...") {
+        return Err(fail("three dots: write START..END with two".into()));
+    }
     let start_text = &text[..dots];
     let rest = &text[dots + 2..];
     // `:STEP`, else `/N` where N starts with a digit (a unit's '/' never does).
@@ -227,6 +230,33 @@ pub fn parse_range(flag: &str, text: &str, kind: Kind) -> Result<Grid, Error> {
         .map(|(_, _, u)| *u)
         .find(|u| !u.is_empty())
         .unwrap_or("");
+    // Parts that carry their own unit are checked first, so a wrong unit is
+    // blamed on the part that wrote it, not on a bare part that inherited it.
+    let mut order: Vec<usize> = (0..raw.len()).collect();
+    order.sort_by_key(|&i| split[i].2.is_empty());
+    for &i in &order {
+        let (role, t) = raw[i];
+        let (_, number_text, unit) = split[i];
+        if unit.is_empty() {
+            continue;
+        }
+        let full = format!("{number_text} {unit}");
+        if parse(flag, &full, kind).is_err() {
+            if let Some(other) = OTHER_KINDS
+                .iter()
+                .find(|k| **k != kind && parse(flag, &full, **k).is_ok())
+            {
+                return Err(fail(format!(
+                    "{role} '{}' is {} {} but {flag} takes {} {}",
+                    t.trim(),
+                    article(*other),
+                    other.name(),
+                    article(kind),
+                    kind.name()
+                )));
+            }
+        }
+    }
     let mut parts: Vec<Part> = Vec::with_capacity(3);
     for ((role, t), (_, number_text, unit)) in raw.iter().zip(&split) {
         let unit = if unit.is_empty() { range_unit } else { unit };
@@ -545,5 +575,17 @@ mod tests {
         assert_eq!(split_part("1e3km"), ("1e3", "km"));
         assert_eq!(split_part(" -2.5 deg"), ("-2.5", "deg"));
         assert_eq!(split_part("12"), ("12", ""));
+    }
+
+    #[test]
+    fn a_wrong_unit_is_blamed_on_the_part_that_wrote_it() {
+        let e = err("200..600:5km/s", Kind::Length);
+        assert!(e.contains("step '5km/s' is a speed"), "{e}");
+    }
+
+    #[test]
+    fn three_dots_are_rejected_rather_than_read_as_a_decimal_point() {
+        let e = err("150km...600km:50km", Kind::Length);
+        assert!(e.contains("three dots"), "{e}");
     }
 }

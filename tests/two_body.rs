@@ -290,3 +290,56 @@ fn solver_answer_for_a_coast_time_reaches_apoapsis_at_that_time() {
         );
     }
 }
+
+#[test]
+fn integrated_time_to_periapsis_matches_keplers_equation_elliptic_and_hyperbolic() {
+    // Descending states approach periapsis: propagate for the time Kepler's
+    // equation (elliptic and hyperbolic forms) predicts and check that the
+    // state is at periapsis.
+    use burnout::kepler::time_to_periapsis_s;
+    let body = Body::from_name("earth").unwrap();
+    let mu = body.mu_m3_s2;
+    let rp = body.radius_m + 300e3;
+    for conic in [
+        Conic::from_apsides(rp, body.radius_m + 20_000e3).unwrap(),
+        Conic::from_periapsis_ecc(rp, 1.4).unwrap(),
+        Conic::from_periapsis_ecc(rp, 1.0 + 1e-7).unwrap(),
+    ] {
+        let states = burnout_for_conic(mu, &conic, body.radius_m + 3_000e3).unwrap();
+        let st = states
+            .iter()
+            .find(|s| s.flight_path_angle_rad < 0.0)
+            .unwrap();
+        let tof = time_to_periapsis_s(mu, &conic, st.true_anomaly_rad).unwrap();
+        let y0 = burnout_state(st.radius_m, st.speed_m_s, st.flight_path_angle_rad);
+        let (y, _) = propagate(mu, y0, tof, 1e-13);
+        assert_relative_eq!(radius(&y), rp, max_relative = 1e-9);
+        let v_peri = conic.angular_momentum_m2_s(mu) / rp;
+        assert!(
+            radial_speed(&y).abs() < 1e-6 * v_peri,
+            "e {}: vr {}",
+            conic.ecc(),
+            radial_speed(&y)
+        );
+    }
+}
+
+#[test]
+fn integrated_sweep_to_apoapsis_matches_the_angle_to_apoapsis() {
+    // The angle the position vector turns through from burnout until the
+    // radial speed changes sign at apoapsis, measured on the integrated
+    // trajectory, equals 180 deg minus the burnout true anomaly.
+    let body = Body::from_name("mars").unwrap();
+    let mu = body.mu_m3_s2;
+    let conic = Conic::from_apsides(body.radius_m + 250e3, body.radius_m + 8_000e3).unwrap();
+    let st = burnout_for_conic(mu, &conic, body.radius_m + 1_000e3).unwrap()[0];
+    let tof = time_to_apoapsis_s(mu, &conic, st.true_anomaly_rad).unwrap();
+    let y0 = burnout_state(st.radius_m, st.speed_m_s, st.flight_path_angle_rad);
+    let (y, _) = propagate(mu, y0, tof, 1e-13);
+    let swept = y[1].atan2(y[0]).rem_euclid(2.0 * std::f64::consts::PI);
+    assert_relative_eq!(
+        swept,
+        std::f64::consts::PI - st.true_anomaly_rad,
+        max_relative = 1e-9
+    );
+}
