@@ -18,7 +18,7 @@
 
 use crate::error::{Error, ErrorClass};
 use crate::inputs::{solve_inputs, Inputs};
-use crate::report::csv::{sensitivity_columns, RESULT_COLUMNS};
+use crate::report::csv::{sensitivity_columns, RESULT_COLUMNS, SITE_COLUMNS};
 use crate::report::rows::{kept, no_branch_message, push_csv_text, BranchChoice, Record};
 use crate::scan::solve_input_kind;
 use rayon::prelude::*;
@@ -208,6 +208,9 @@ impl<R: Read> Batch<R> {
         if sensitivities {
             cols.extend(sensitivity_columns());
         }
+        if self.layout.has_site() {
+            cols.extend(SITE_COLUMNS.iter().map(|s| s.to_string()));
+        }
         cols
     }
 
@@ -279,6 +282,14 @@ impl<R: Read> Batch<R> {
 }
 
 impl Layout {
+    /// Whether the header has a launch-site latitude column (then every
+    /// output row carries the site columns).
+    fn has_site(&self) -> bool {
+        self.columns
+            .iter()
+            .any(|c| matches!(c, Column::Input(k) if k == "latitude"))
+    }
+
     fn solve_group(
         &self,
         group: &[csv::ByteRecord],
@@ -325,9 +336,12 @@ impl Layout {
         }
         let fail = |buf: &mut Vec<u8>, e: &Error| {
             buf.extend_from_slice(&prefix);
-            Record::new(buf)
-                .failure(e.status(), &e.to_string(), opts.sensitivities)
-                .end();
+            let mut rec = Record::new(buf);
+            rec.failure(e.status(), &e.to_string(), opts.sensitivities);
+            if self.has_site() {
+                rec.site(None);
+            }
+            rec.end();
             (Some(e.class()), 1)
         };
         match self.problem_of(r, line) {
@@ -341,7 +355,12 @@ impl Layout {
                         let mut rows = 0;
                         for s in kept(&solved, branch) {
                             buf.extend_from_slice(&prefix);
-                            Record::new(buf).solution(mu, s, opts.sensitivities).end();
+                            let mut rec = Record::new(buf);
+                            rec.solution(mu, s, opts.sensitivities);
+                            if self.has_site() {
+                                rec.site(s.site.as_ref());
+                            }
+                            rec.end();
                             rows += 1;
                         }
                         if rows == 0 {

@@ -26,7 +26,7 @@ use crate::inputs::{problem_from_inputs, solve_inputs, Inputs, KEYS, SITE_KEYS, 
 use crate::invert::Branch;
 use crate::lean::LeanSolved;
 use crate::problem::{Problem, Solved};
-use crate::report::csv::{sensitivity_columns, RESULT_COLUMNS};
+use crate::report::csv::{sensitivity_columns, site_values, RESULT_COLUMNS, SITE_COLUMNS};
 use crate::report::plot::{PlotData, PlotSeries};
 use crate::report::rows::{
     kept, no_branch_message, push_float, warning_tag, BranchChoice, FloatMemo, Record, SolutionView,
@@ -539,9 +539,21 @@ impl Point {
                     state: &l.states[i],
                     sensitivity: &l.sensitivities[i],
                     warnings: &w[i],
+                    site: None,
                 })
             }))
     }
+}
+
+/// The speed a scan minimises and maximises: the inertial burnout speed, or,
+/// with a launch site, the speed relative to the rotating surface (what the
+/// vehicle must supply from that site: the cost of the orbit from there).
+fn required_speed(
+    state: &crate::invert::BurnoutState,
+    site: Option<&crate::site::SiteState>,
+) -> f64 {
+    site.map(|x| x.relative_speed_m_s)
+        .unwrap_or(state.speed_m_s)
 }
 
 /// Input keys with which a problem is a plain closed-form pair, if exactly
@@ -858,7 +870,17 @@ impl Plan {
         if sensitivities {
             cols.extend(sensitivity_columns());
         }
+        if self.has_site() {
+            cols.extend(SITE_COLUMNS.iter().map(|s| s.to_string()));
+        }
         cols
+    }
+
+    /// Whether a launch site is among the inputs (then every row carries the
+    /// site columns: launch azimuth, burnout point, relative velocity,
+    /// inclination).
+    pub fn has_site(&self) -> bool {
+        self.base.contains_key("latitude") || self.axes.iter().any(|a| a.key == "latitude")
     }
 
     fn write_header(&self, out: &mut impl Write, opts: &ScanOptions) -> std::io::Result<()> {
@@ -976,7 +998,7 @@ impl Plan {
                         let st = view.state;
                         let bit = branch_bit(st.branch);
                         let cand = GridExtreme {
-                            speed: st.speed_m_s,
+                            speed: required_speed(st, view.site),
                             idx,
                             branches: bit,
                         };
@@ -1083,7 +1105,11 @@ impl Plan {
             ScanFormat::Csv => {
                 // The prefix ended with a separator: the record continues it.
                 let mut rec = Record::new(buf);
-                rec.solution_memo(mu, s, opts.sensitivities, memo).end();
+                rec.solution_memo(mu, s, opts.sensitivities, memo);
+                if self.has_site() {
+                    rec.site(s.site);
+                }
+                rec.end();
             }
             ScanFormat::Json => {
                 let c = &st.conic;
@@ -1124,12 +1150,31 @@ impl Plan {
                         }
                     }
                 }
+                if self.has_site() {
+                    for (k, v) in SITE_COLUMNS.iter().zip(site_values(s.site)) {
+                        buf.push(b',');
+                        json_str(buf, k);
+                        buf.push(b':');
+                        json_num(buf, v);
+                    }
+                }
                 buf.push(b'}');
             }
             ScanFormat::Table => {
-                let (_, sf) = opts.units.speed();
+                let (su, sf) = opts.units.speed();
                 let decimals = if opts.units == DisplayUnits::Us { 2 } else { 6 };
-                let note: Vec<String> = s.warnings.iter().map(warning_tag).collect();
+                let mut note: Vec<String> = s.warnings.iter().map(warning_tag).collect();
+                if let Some(x) = s.site {
+                    note.insert(
+                        0,
+                        format!(
+                            "relative {:.decimals$} {su}, launch az {:.3} deg, incl {:.3} deg",
+                            x.relative_speed_m_s / sf,
+                            x.launch_azimuth_rad.to_degrees(),
+                            x.inclination_rad.to_degrees()
+                        ),
+                    );
+                }
                 let line = format!(
                     "{:<11} {:>13} {:>12}  {}",
                     st.branch.name(),
@@ -1145,9 +1190,12 @@ impl Plan {
     fn failure_row(&self, opts: &ScanOptions, status: &str, message: &str, buf: &mut Vec<u8>) {
         match opts.format {
             ScanFormat::Csv => {
-                Record::new(buf)
-                    .failure(status, message, opts.sensitivities)
-                    .end();
+                let mut rec = Record::new(buf);
+                rec.failure(status, message, opts.sensitivities);
+                if self.has_site() {
+                    rec.site(None);
+                }
+                rec.end();
             }
             ScanFormat::Json => {
                 buf.extend_from_slice(b"\"status\":");
@@ -1165,6 +1213,13 @@ impl Plan {
                     for c in sensitivity_columns() {
                         buf.push(b',');
                         json_str(buf, &c);
+                        buf.extend_from_slice(b":null");
+                    }
+                }
+                if self.has_site() {
+                    for c in SITE_COLUMNS {
+                        buf.push(b',');
+                        json_str(buf, c);
                         buf.extend_from_slice(b":null");
                     }
                 }
@@ -1316,7 +1371,7 @@ impl Plan {
             fold_extreme(
                 &mut best,
                 GridExtreme {
-                    speed: s.state.speed_m_s,
+                    speed: required_speed(&s.state, s.site.as_ref()),
                     idx: 0,
                     branches: branch_bit(s.state.branch),
                 },
@@ -1471,8 +1526,13 @@ impl Plan {
             .map(|(a, &v)| format!("{} {}", a.key, show_fine(&a.grid, v, units)))
             .collect();
         let mut s = format!(
-            "{} required speed {:.decimals$} {su} ({}) at {}",
+            "{} required {}speed {:.decimals$} {su} ({}) at {}",
             e.kind.name(),
+            if self.has_site() {
+                "surface-relative "
+            } else {
+                ""
+            },
             e.speed_m_s / sf,
             e.branches.join(", "),
             at.join(", ")

@@ -21,6 +21,37 @@ pub const RESULT_COLUMNS: [&str; 12] = [
     "c3_m2_s2",
 ];
 
+/// Launch-site columns, added after the result (and sensitivity) columns
+/// when a launch site is among the inputs (angles in deg, speeds in m/s;
+/// latitude geocentric).
+pub const SITE_COLUMNS: [&str; 8] = [
+    "launch_azimuth_deg",
+    "azimuth_deg",
+    "burnout_latitude_deg",
+    "burnout_longitude_deg",
+    "relative_speed_m_s",
+    "relative_flight_path_angle_deg",
+    "relative_azimuth_deg",
+    "inclination_deg",
+];
+
+/// The values of [`SITE_COLUMNS`] for a site state.
+pub fn site_values(site: Option<&crate::site::SiteState>) -> [Option<f64>; 8] {
+    match site {
+        None => [None; 8],
+        Some(x) => [
+            Some(x.launch_azimuth_rad.to_degrees()),
+            Some(x.inertial_azimuth_rad.to_degrees()),
+            Some(x.burnout_latitude_rad.to_degrees()),
+            Some(x.burnout_longitude_rad.to_degrees()),
+            Some(x.relative_speed_m_s),
+            Some(x.relative_flight_path_angle_rad.to_degrees()),
+            Some(x.relative_azimuth_rad.to_degrees()),
+            Some(x.inclination_rad.to_degrees()),
+        ],
+    }
+}
+
 /// The 15 sensitivity column names `d_<row>_d_<col>`.
 pub fn sensitivity_columns() -> Vec<String> {
     let mut out = Vec::with_capacity(15);

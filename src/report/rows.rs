@@ -23,6 +23,8 @@ pub struct SolutionView<'a> {
     pub sensitivity: &'a Sensitivity,
     /// Its warnings.
     pub warnings: &'a [Warning],
+    /// Its launch-site geometry, if a site was given.
+    pub site: Option<&'a crate::site::SiteState>,
 }
 
 impl<'a> From<&'a Solution> for SolutionView<'a> {
@@ -31,6 +33,7 @@ impl<'a> From<&'a Solution> for SolutionView<'a> {
             state: &s.state,
             sensitivity: &s.sensitivity,
             warnings: &s.warnings,
+            site: s.site.as_ref(),
         }
     }
 }
@@ -301,6 +304,14 @@ impl<'a> Record<'a> {
                     slot += 1;
                 }
             }
+        }
+        self
+    }
+
+    /// The [`super::csv::SITE_COLUMNS`] fields (blank without a site state).
+    pub fn site(&mut self, site: Option<&crate::site::SiteState>) -> &mut Self {
+        for v in super::csv::site_values(site) {
+            self.opt(v);
         }
         self
     }

@@ -267,3 +267,107 @@ fn site_keys_without_a_latitude_are_a_usage_error() {
         r.stderr
     );
 }
+
+#[test]
+fn scan_over_site_latitude_tabulates_relative_speed_as_solve_does() {
+    let r = run(&[
+        "scan",
+        "--burnout-alt",
+        "250",
+        "--periapsis-alt",
+        "250",
+        "--apoapsis-alt",
+        "900",
+        "--latitude",
+        "0..60:20",
+        "--inclination",
+        "65",
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    let mut rdr = csv::Reader::from_reader(r.stdout.as_bytes());
+    let header: Vec<String> = rdr.headers().unwrap().iter().map(str::to_string).collect();
+    let col = |name: &str| {
+        header
+            .iter()
+            .position(|h| h == name)
+            .unwrap_or_else(|| panic!("{name} in {header:?}"))
+    };
+    let (lat_c, rel_c, az_c, inc_c) = (
+        col("latitude_deg"),
+        col("relative_speed_m_s"),
+        col("launch_azimuth_deg"),
+        col("inclination_deg"),
+    );
+    let rows: Vec<csv::StringRecord> = rdr.records().map(|x| x.unwrap()).collect();
+    // 4 latitudes x (northbound, southbound); burnout at periapsis: one branch.
+    assert_eq!(rows.len(), 8);
+    for row in &rows {
+        let lat = &row[lat_c];
+        let doc = solve_json(&[
+            "--burnout-alt",
+            "250",
+            "--periapsis-alt",
+            "250",
+            "--apoapsis-alt",
+            "900",
+            "--latitude",
+            lat,
+            "--inclination",
+            "65",
+        ]);
+        let az: f64 = row[az_c].parse().unwrap();
+        let rel: f64 = row[rel_c].parse().unwrap();
+        let same = doc["solutions"].as_array().unwrap().iter().any(|s| {
+            (f(s, "launch_azimuth_deg") - az).abs() < 1e-9
+                && (f(&s["relative"], "speed_m_s") - rel).abs() < 1e-6
+        });
+        assert!(
+            same,
+            "latitude {lat}: row {row:?} not among solve's solutions"
+        );
+        assert_relative_eq!(
+            row[inc_c].parse::<f64>().unwrap(),
+            65.0,
+            max_relative = 1e-9
+        );
+    }
+    assert!(r.stderr.contains("surface-relative speed"), "{}", r.stderr);
+}
+
+#[test]
+fn batch_rows_with_a_site_carry_the_site_columns() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("in.csv"),
+        "id,burnout-alt,periapsis-alt,apoapsis-alt,latitude,azimuth\neq,200,200,200,0,90\nplain,200,200,200,,\n",
+    )
+    .unwrap();
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_burnout"))
+        .args(["batch", "in.csv"])
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+    let mut rdr = csv::Reader::from_reader(&out.stdout[..]);
+    let header: Vec<String> = rdr.headers().unwrap().iter().map(str::to_string).collect();
+    let rel = header
+        .iter()
+        .position(|h| h == "relative_speed_m_s")
+        .unwrap();
+    let speed = header.iter().position(|h| h == "speed_m_s").unwrap();
+    let rows: Vec<csv::StringRecord> = rdr.records().map(|x| x.unwrap()).collect();
+    let v: f64 = rows[0][speed].parse().unwrap();
+    let v_rel: f64 = rows[0][rel].parse().unwrap();
+    // Due east on the equator: the surface carries omega r (WGS 84 omega).
+    assert_relative_eq!(
+        v - v_rel,
+        7.292115e-5 * (6_378_137.0 + 200e3),
+        max_relative = 1e-10
+    );
+    assert_eq!(
+        &rows[1][rel], "",
+        "a row without a site has blank site columns"
+    );
+}
