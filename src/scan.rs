@@ -209,6 +209,8 @@ pub struct Plan {
     lean: bool,
     total: usize,
     strides: Vec<usize>,
+    /// Whether a launch site is among the inputs (decided once).
+    site: bool,
 }
 
 impl Plan {
@@ -266,6 +268,7 @@ impl Plan {
         for i in (0..axes.len().saturating_sub(1)).rev() {
             strides[i] = strides[i + 1] * axes[i + 1].grid.len();
         }
+        let site = base.contains_key("latitude") || axes.iter().any(|a: &Axis| a.key == "latitude");
         let mut plan = Plan {
             axes,
             base,
@@ -273,6 +276,7 @@ impl Plan {
             lean: false,
             total,
             strides,
+            site,
         };
         plan.build_template();
         Ok(plan)
@@ -880,7 +884,7 @@ impl Plan {
     /// site columns: launch azimuth, burnout point, relative velocity,
     /// inclination).
     pub fn has_site(&self) -> bool {
-        self.base.contains_key("latitude") || self.axes.iter().any(|a| a.key == "latitude")
+        self.site
     }
 
     fn write_header(&self, out: &mut impl Write, opts: &ScanOptions) -> std::io::Result<()> {
