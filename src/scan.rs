@@ -1480,7 +1480,10 @@ impl Plan {
         };
         // Converged onto the best grid point itself (an end of the range or
         // of the solved region): keep the grid point and what is said of it.
-        let tol = 3.0 * (f64::EPSILON.sqrt() * x.abs() + t_abs);
+        // On a flat extreme the speed's own rounding noise (~1e-16) limits
+        // where Brent can place it to about sqrt(noise) of the bracket, so
+        // anything within 1e-5 of the bracket width counts as the grid point.
+        let tol = 3.0 * (f64::EPSILON.sqrt() * x.abs() + t_abs) + 1e-5 * (b - a);
         if (x - grid_si[0]).abs() <= tol {
             return ext;
         }
