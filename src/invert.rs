@@ -232,8 +232,14 @@ pub fn speed_for_target(
             let d = ((x - sa) * (x + sa)).sqrt() / c;
             let mut qs = vec![1.0 + d];
             let qm = 1.0 - d;
-            if qm > 0.0 && d > 0.0 {
+            // The minus root is physical only for an ellipse (e < 1): for
+            // e >= 1 it is zero or negative, whatever rounding says.
+            if x < 1.0 && qm > 0.0 && d > 0.0 {
                 qs.insert(0, qm);
+            }
+            if crate::orbit::exactly(x, 1.0) {
+                // A parabola: exactly escape speed.
+                qs = vec![2.0];
             }
             qs.into_iter().map(|q| (q * mu / r).sqrt()).collect()
         }
@@ -275,7 +281,10 @@ pub fn speed_for_target(
                 Conic::from_apsides(st.conic.periapsis_radius_m().min(x), x).unwrap_or(st.conic)
             }
             (Q::PeriapsisRadius, Some(ra)) => Conic::from_apsides(x, ra.max(x)).unwrap_or(st.conic),
-            (Q::PeriapsisRadius, None) => st.conic,
+            (Q::PeriapsisRadius, None) => st.conic.with_periapsis(x),
+            (Q::Ecc, _) if crate::orbit::exactly(x, 1.0) => {
+                Conic::from_periapsis_ecc(st.conic.periapsis_radius_m(), 1.0).unwrap_or(st.conic)
+            }
             (Q::Ecc, _) => st.conic.with_ecc(x),
             (Q::Sma, None) => st.conic.with_open_inv_sma(1.0 / x),
             (Q::C3, None) => st.conic.with_open_inv_sma(-x / mu),

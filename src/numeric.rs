@@ -433,6 +433,31 @@ fn domain(system: &System) -> (f64, f64, bool) {
     }
 }
 
+/// From `inside` (where `f` is defined, with value `f_inside`) toward
+/// `outside` (where it is not): finds the edge of definedness by bisection,
+/// then probes back from it at geometrically growing distances (the value at
+/// the very edge is often rounding noise, e.g. a period near escape) for a
+/// point whose residual has the other sign. Returns that point and value.
+fn edge_bracket(f: &Scalar, inside: f64, outside: f64, f_inside: f64) -> Option<(f64, f64)> {
+    let (mut a, mut b) = (inside, outside);
+    for _ in 0..80 {
+        let m = 0.5 * (a + b);
+        if f.eval(m).is_some() {
+            a = m;
+        } else {
+            b = m;
+        }
+    }
+    let edge = a;
+    let span = edge - inside;
+    (1..=14).rev().find_map(|k| {
+        let x = edge - span * 10f64.powi(-k);
+        f.eval(x)
+            .filter(|v| v.is_finite() && v.signum() != f_inside.signum())
+            .map(|v| (x, v))
+    })
+}
+
 /// All roots of a one-unknown, one-target system. Returns (natural value,
 /// iterations, termination) for each.
 fn scalar_roots(system: &System) -> Vec<(f64, u64, String)> {
@@ -463,17 +488,29 @@ fn scalar_roots(system: &System) -> Vec<(f64, u64, String)> {
         }
     };
     for k in 0..SAMPLES - 1 {
-        let (Some(a), Some(b)) = (vals[k], vals[k + 1]) else {
-            continue;
+        // Where the target stops existing between two samples (e.g. time
+        // to apoapsis as the speed nears escape), bracket against the last
+        // point where it still exists, found by bisection.
+        let (lo_x, hi_x, a, b) = match (vals[k], vals[k + 1]) {
+            (Some(a), Some(b)) => (grid[k], grid[k + 1], a, b),
+            (Some(a), None) => match edge_bracket(&f, grid[k], grid[k + 1], a) {
+                Some((x, b)) => (grid[k], x, a, b),
+                None => continue,
+            },
+            (None, Some(b)) => match edge_bracket(&f, grid[k + 1], grid[k], b) {
+                Some((x, a)) => (x, grid[k + 1], a, b),
+                None => continue,
+            },
+            (None, None) => continue,
         };
         if a == 0.0 {
-            push(grid[k], 0, "exact".into(), &mut roots);
+            push(lo_x, 0, "exact".into(), &mut roots);
             continue;
         }
         if a.signum() != b.signum() {
-            let solver = BrentRoot::new(grid[k], grid[k + 1], 1e-15);
+            let solver = BrentRoot::new(lo_x, hi_x, 1e-15);
             if let Ok(res) = Executor::new(Scalar { system }, solver)
-                .configure(|s| s.param(0.5 * (grid[k] + grid[k + 1])).max_iters(200))
+                .configure(|s| s.param(0.5 * (lo_x + hi_x)).max_iters(200))
                 .run()
             {
                 let st = res.state();
@@ -1133,14 +1170,44 @@ mod tests {
     }
 
     #[test]
+    fn coast_time_near_escape_is_bracketed_at_the_edge_of_the_domain() {
+        // Regression: a 7-day coast to periapsis needs a speed just below
+        // escape, where the residual stops existing between two samples; the
+        // root lies between the last defined sample and that edge. Root from
+        // an independent 60-digit check: 11024.877 m/s.
+        let re = earth().radius_m;
+        let p = problem(
+            Some(re + 46_744.815_995_133_28),
+            None,
+            Some(30.598_773_071_413_46f64.to_radians()),
+            vec![Target::new(
+                Q::TimeToPeriapsis,
+                621_000.589_055_352_7,
+                "--time-to-periapsis",
+            )],
+        );
+        let s = solve_numeric(&p).unwrap();
+        assert_relative_eq!(
+            s.solutions[0].state.speed_m_s,
+            11_024.877_179,
+            max_relative = 1e-9
+        );
+    }
+
+    #[test]
     fn unreachable_target_is_infeasible() {
         let re = earth().radius_m;
-        // Apoapsis below the burnout radius cannot be reached at any speed.
+        // Climbing (fpa > 0) puts burnout before apoapsis, so the angle still
+        // to travel to apoapsis is below 180 deg at any speed: 270 is unreachable.
         let p = problem(
             Some(re + 500e3),
             None,
             Some(0.3),
-            vec![Target::new(Q::TimeToApoapsis, 1e9, "--time-to-apoapsis")],
+            vec![Target::new(
+                Q::AngleToApoapsis,
+                270f64.to_radians(),
+                "--angle-to-apoapsis",
+            )],
         );
         let e = solve_numeric(&p).unwrap_err();
         assert_eq!(e.class(), crate::ErrorClass::Infeasible);

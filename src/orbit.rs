@@ -172,7 +172,8 @@ impl Conic {
     pub fn c3_m2_s2(&self, mu_m3_s2: f64) -> f64 {
         match self.apoapsis_radius_m {
             Some(ra) => -2.0 * mu_m3_s2 / (self.periapsis_radius_m + ra),
-            None => -mu_m3_s2 * self.inv_sma_per_m,
+            // + 0.0 turns the parabola's -0 into 0.
+            None => -mu_m3_s2 * self.inv_sma_per_m + 0.0,
         }
     }
 
@@ -205,6 +206,13 @@ impl Conic {
     /// rather than recomputed from a rounded state).
     pub(crate) fn with_ecc(mut self, ecc: f64) -> Conic {
         self.ecc = ecc;
+        self
+    }
+
+    /// The same conic with the periapsis radius replaced by a given value
+    /// (a targeted periapsis echoed exactly on an open orbit).
+    pub(crate) fn with_periapsis(mut self, periapsis_radius_m: f64) -> Conic {
+        self.periapsis_radius_m = periapsis_radius_m;
         self
     }
 

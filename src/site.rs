@@ -82,16 +82,33 @@ pub fn geocentric_latitude(body: &Body, latitude_geodetic_rad: f64) -> f64 {
 /// Great-circle destination: from (lat1, lon1) leaving at azimuth `az1`
 /// along an arc `arc` (all rad) to (lat2, lon2) and the azimuth there.
 pub fn great_circle(lat1: f64, lon1: f64, az1: f64, arc: f64) -> (f64, f64, f64) {
+    // In vectors (no spherical-trigonometry cancellation near the poles):
+    // p2 = p1 cos d + t1 sin d, t2 = -p1 sin d + t1 cos d, with t1 the unit
+    // tangent at the site along the launch azimuth.
     let (s1, c1) = lat1.sin_cos();
-    let (sd, cd) = arc.sin_cos();
+    let (sl, cl) = lon1.sin_cos();
     let (sa, ca) = az1.sin_cos();
-    let z = s1 * cd + c1 * sd * ca;
-    // cos(lat2) from the two horizontal components, to keep digits near the poles.
-    let x = c1 * cd - s1 * sd * ca;
-    let y = sd * sa;
-    let lat2 = z.atan2(x.hypot(y));
-    let lon2 = lon1 + (sa * sd * c1).atan2(cd - s1 * z);
-    let az2 = (sa * c1).atan2(cd * c1 * ca - s1 * sd);
+    let (sd, cd) = arc.sin_cos();
+    let p1 = [c1 * cl, c1 * sl, s1];
+    let north1 = [-s1 * cl, -s1 * sl, c1];
+    let east1 = [-sl, cl, 0.0];
+    let t1: [f64; 3] = std::array::from_fn(|i| north1[i] * ca + east1[i] * sa);
+    let p2: [f64; 3] = std::array::from_fn(|i| p1[i] * cd + t1[i] * sd);
+    let t2: [f64; 3] = std::array::from_fn(|i| -p1[i] * sd + t1[i] * cd);
+    let horiz = p2[0].hypot(p2[1]);
+    let lat2 = p2[2].atan2(horiz);
+    // At a pole the longitude is undefined: keep the site's.
+    let lon2 = if horiz > 0.0 {
+        p2[1].atan2(p2[0])
+    } else {
+        lon1
+    };
+    let (s2, c2) = lat2.sin_cos();
+    let (sl2, cl2) = lon2.sin_cos();
+    let north2 = [-s2 * cl2, -s2 * sl2, c2];
+    let east2 = [-sl2, cl2, 0.0];
+    let dot = |u: &[f64; 3], v: &[f64; 3]| u[0] * v[0] + u[1] * v[1] + u[2] * v[2];
+    let az2 = dot(&t2, &east2).atan2(dot(&t2, &north2));
     (
         lat2,
         (lon2 + PI).rem_euclid(2.0 * PI) - PI,
@@ -499,10 +516,15 @@ pub fn solve_with_site(
         planar: &system,
         inclination_rad: i_t,
     };
-    let az_seeds: Vec<f64> = match azimuths_for_inclination(lat_site, i_t) {
+    // The two azimuths of the non-rotating relation at the site, then a
+    // ring of starts every 30 deg: with downrange, or an inclination close
+    // to the latitude, the northbound and southbound roots move apart from
+    // the site's pair (and from each other) and need their own starts.
+    let mut az_seeds: Vec<f64> = match azimuths_for_inclination(lat_site, i_t) {
         Ok((n, s)) => vec![n, s],
-        Err(_) => vec![0.0, FRAC_PI_2, PI, 1.5 * PI],
+        Err(_) => Vec::new(),
     };
+    az_seeds.extend((0..12).map(|k| k as f64 * PI / 6.0));
     let mut runs = Vec::new();
     for sol in &planar.solutions {
         let st = &sol.state;
@@ -546,7 +568,7 @@ pub fn solve_with_site(
                 .zip(&states)
                 .any(|(s, st): (&SiteState, &crate::invert::BurnoutState)| {
                     let d = (s.launch_azimuth_rad - az).rem_euclid(2.0 * PI);
-                    d.min(2.0 * PI - d) < 1e-7
+                    d.min(2.0 * PI - d) < 1e-5
                         && (st.speed_m_s - v).abs() < 1e-7 * v
                         && (st.flight_path_angle_rad - gamma).abs() < 1e-7
                 });

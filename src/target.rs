@@ -371,7 +371,9 @@ fn conic_from_size(mu: f64, x: &Target, s: &Target, alpha: f64) -> Result<Conic,
             }
             let ecc = e2.sqrt();
             if ecc < 1.0 {
-                Conic::from_apsides(u / (1.0 + ecc), u / (1.0 - ecc))
+                // ra = 2a - rp: p / (1 - e) cancels for near-radial orbits.
+                let rp = u / (1.0 + ecc);
+                Conic::from_apsides(rp, (2.0 / alpha - rp).max(rp))
             } else {
                 Conic::open_from_periapsis_inv_sma(u / (1.0 + ecc), alpha)
             }

@@ -371,3 +371,57 @@ fn batch_rows_with_a_site_carry_the_site_columns() {
         "a row without a site has blank site columns"
     );
 }
+
+#[test]
+fn inclination_just_above_latitude_with_downrange_finds_both_launch_azimuths() {
+    // Regression: with downrange and an inclination close to the latitude,
+    // the northbound and southbound roots (about 88.59 and 92.56 deg here,
+    // each checked by flying it with --azimuth) drift apart from the site's
+    // pair; only one used to be found.
+    let doc = solve_json(&[
+        "--burnout-alt",
+        "117404.61471677723m",
+        "--latitude",
+        "14.392397521922575",
+        "--longitude=-46.804749292744845",
+        "--downrange",
+        "23.229390845304813deg",
+        "--periapsis-alt",
+        "-214576.92642248422m",
+        "--apoapsis-alt",
+        "7365632.223150484m",
+        "--inclination",
+        "14.300022587657832deg",
+    ]);
+    let mut az: Vec<f64> = doc["solutions"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|s| f(s, "launch_azimuth_deg"))
+        .collect();
+    az.sort_by(f64::total_cmp);
+    az.dedup_by(|a, b| (*a - *b).abs() < 1e-6);
+    assert_eq!(az.len(), 2, "{az:?}");
+    for a in az {
+        let check = solve_json(&[
+            "--burnout-alt",
+            "117404.61471677723m",
+            "--latitude",
+            "14.392397521922575",
+            "--longitude=-46.804749292744845",
+            "--downrange",
+            "23.229390845304813deg",
+            "--periapsis-alt",
+            "-214576.92642248422m",
+            "--apoapsis-alt",
+            "7365632.223150484m",
+            "--azimuth",
+            &format!("{a}"),
+        ]);
+        assert_relative_eq!(
+            f(&check["orbit"], "inclination_deg"),
+            14.300022587657832,
+            max_relative = 1e-9
+        );
+    }
+}
