@@ -41,6 +41,10 @@ pub fn run(args: Args) -> Result<i32, Error> {
         let size = file.metadata().map(|m| m.len()).unwrap_or(0);
         (Box::new(file), size)
     };
+    let input = LineCap {
+        inner: input,
+        since_newline: 0,
+    };
     let batch = Batch::open(BufReader::with_capacity(1 << 16, input))
         .map_err(|e| Error::Usage(format!("{e} ('{shown}')")))?;
     if let (Some(out), false) = (&args.out, shown == "-") {
@@ -129,4 +133,34 @@ pub fn run(args: Args) -> Result<i32, Error> {
         secs
     );
     Ok(if summary.all_solved() { 0 } else { 3 })
+}
+
+/// Longest input line accepted, bytes: a record held in memory is at most
+/// this big, so a file without line breaks cannot exhaust memory.
+const MAX_LINE_BYTES: usize = 16 << 20;
+
+/// A reader that fails once a line grows past [`MAX_LINE_BYTES`].
+struct LineCap<R> {
+    inner: R,
+    since_newline: usize,
+}
+
+impl<R: Read> Read for LineCap<R> {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        let n = self.inner.read(buf)?;
+        for &b in &buf[..n] {
+            if b == b'\n' {
+                self.since_newline = 0;
+            } else {
+                self.since_newline += 1;
+                if self.since_newline > MAX_LINE_BYTES {
+                    return Err(std::io::Error::new(
+                        std::io::ErrorKind::InvalidData,
+                        format!("an input line is longer than {} MiB", MAX_LINE_BYTES >> 20),
+                    ));
+                }
+            }
+        }
+        Ok(n)
+    }
 }

@@ -375,3 +375,15 @@ fn refused_output_is_the_only_stderr_line_even_with_unknown_columns() {
     assert_eq!(r.stderr.lines().count(), 1, "{}", r.stderr);
     assert_eq!(std::fs::read(dir.path().join("out.csv")).unwrap(), b"keep");
 }
+
+#[test]
+fn a_line_longer_than_the_cap_stops_the_run_without_an_output_file() {
+    // One 17 MiB field: memory per record is capped at 16 MiB of line.
+    let mut input = b"burnout-alt,periapsis-alt,apoapsis-alt\n200,185,\"".to_vec();
+    input.extend(std::iter::repeat_n(b'9', 17 << 20));
+    input.extend_from_slice(b"\"\n");
+    let (r, dir) = batch(&input, &["--out", "out.csv"]);
+    assert_eq!(r.code, Some(2), "{}", r.stderr);
+    assert!(r.stderr.contains("longer than 16 MiB"), "{}", r.stderr);
+    assert!(!dir.path().join("out.csv").exists());
+}
