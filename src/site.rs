@@ -537,11 +537,17 @@ pub fn solve_with_site(
             }
         }
     }
-    let tol = crate::numeric::ROOT_TOLERANCE.max(1e-12);
-    let good: Vec<&crate::numeric::Run> = runs
+    // A start accepted only when polished to the root tolerance: where the
+    // inclination barely changes with azimuth (near a pole), an unconverged
+    // start can sit within a looser tolerance of the target anywhere.
+    let tol = crate::numeric::ROOT_TOLERANCE;
+    let mut good: Vec<&crate::numeric::Run> = runs
         .iter()
-        .filter(|r| crate::numeric::max_abs(&r.residuals) <= tol * 10.0)
+        .filter(|r| crate::numeric::max_abs(&r.residuals) <= tol)
         .collect();
+    good.sort_by(|a, b| {
+        crate::numeric::max_abs(&a.residuals).total_cmp(&crate::numeric::max_abs(&b.residuals))
+    });
     if good.is_empty() {
         // Say why: the usual cause is an inclination below the burnout latitude.
         let (lat_b, _, _) = great_circle(
@@ -568,7 +574,11 @@ pub fn solve_with_site(
                 .zip(&states)
                 .any(|(s, st): (&SiteState, &crate::invert::BurnoutState)| {
                     let d = (s.launch_azimuth_rad - az).rem_euclid(2.0 * PI);
-                    d.min(2.0 * PI - d) < 1e-5
+                    // The inclination's sensitivity to azimuth scales with
+                    // cos(latitude): near a pole a root is only located to
+                    // about 1e-6 / cos(lat) rad, so merge within that.
+                    let radius = 1e-6 / s.burnout_latitude_rad.cos().max(1e-3);
+                    d.min(2.0 * PI - d) < radius
                         && (st.speed_m_s - v).abs() < 1e-7 * v
                         && (st.flight_path_angle_rad - gamma).abs() < 1e-7
                 });

@@ -425,3 +425,61 @@ fn inclination_just_above_latitude_with_downrange_finds_both_launch_azimuths() {
         );
     }
 }
+
+#[test]
+fn close_mirror_roots_are_kept_and_unconverged_starts_are_not_returned() {
+    // Inclination a hair above the latitude: the two roots sit either side
+    // of due east, 6.8e-6 rad apart (both reproduce the target, from the
+    // independent 60-digit check: 89.99980591 and 90.00019409 deg). And a
+    // case where a start at exactly 90 deg used to be returned unpolished.
+    for (args, want) in [
+        (
+            vec![
+                "--body",
+                "mars",
+                "--burnout-alt",
+                "21112.177633386364m",
+                "--latitude=-13.749260492939754deg",
+                "--longitude=-134.2854121299319deg",
+                "--periapsis-alt",
+                "-17641.672506916337m",
+                "--apoapsis-alt",
+                "56995.08200974716m",
+                "--inclination",
+                "13.749260494283266deg",
+            ],
+            [89.99980591108108, 90.00019408891892],
+        ),
+        (
+            vec![
+                "--latitude",
+                "58.64542309837458",
+                "--longitude",
+                "107.93880475121148deg",
+                "--burnout-alt",
+                "155568.68795028824m",
+                "--periapsis-alt",
+                "-17871.83989816252m",
+                "--apoapsis-alt",
+                "5707690.92183028m",
+                "--inclination",
+                "58.4741545540409deg",
+            ],
+            [89.9992084051411, 90.0007915948589],
+        ),
+    ] {
+        let doc = solve_json(&args);
+        let mut az: Vec<f64> = doc["solutions"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|s| f(s, "launch_azimuth_deg"))
+            .collect();
+        az.sort_by(f64::total_cmp);
+        az.dedup_by(|a, b| (*a - *b).abs() < 1e-9);
+        assert_eq!(az.len(), 2, "{az:?}");
+        for (got, w) in az.iter().zip(want) {
+            assert!((got - w).abs() < 1e-6, "{got} vs {w}");
+        }
+    }
+}
