@@ -129,6 +129,9 @@ struct Layout {
     /// Header cells as written (BOM removed).
     names: Vec<String>,
     columns: Vec<Column>,
+    /// Whether a launch-site latitude column is present (then every output
+    /// row carries the site columns); decided once from the header.
+    site: bool,
 }
 
 impl<R: Read> Batch<R> {
@@ -185,7 +188,13 @@ impl<R: Read> Batch<R> {
         }
         Ok(Batch {
             reader,
-            layout: Layout { names, columns },
+            layout: Layout {
+                site: columns
+                    .iter()
+                    .any(|c| matches!(c, Column::Input(k) if k == "latitude")),
+                names,
+                columns,
+            },
             unknown,
             empty: !has_header,
         })
@@ -285,9 +294,7 @@ impl Layout {
     /// Whether the header has a launch-site latitude column (then every
     /// output row carries the site columns).
     fn has_site(&self) -> bool {
-        self.columns
-            .iter()
-            .any(|c| matches!(c, Column::Input(k) if k == "latitude"))
+        self.site
     }
 
     fn solve_group(

@@ -8,7 +8,7 @@
 
 use crate::error::{g, Error};
 use crate::invert::{forward_state, BurnoutState};
-use crate::sensitivity::{partials_per_rad, ROWS};
+use crate::sensitivity::{partials_per_rad_for_state, ROWS};
 use argmin::core::{CostFunction, Executor, State};
 use argmin::solver::brent::BrentRoot;
 use nalgebra::{Matrix3, SymmetricEigen, Vector3};
@@ -123,13 +123,7 @@ pub fn map_errors(
     errors: &BurnoutErrors,
 ) -> Result<Vec<RowError>, Error> {
     let p = errors.covariance()?;
-    let sens = crate::sensitivity::partials_for_state(mu_m3_s2, state);
-    let per_rad = partials_per_rad(
-        mu_m3_s2,
-        state.radius_m,
-        state.speed_m_s,
-        state.flight_path_angle_rad,
-    );
+    let per_rad = partials_per_rad_for_state(mu_m3_s2, state);
     let sig = [
         errors.speed_sigma_m_s,
         errors.fpa_sigma_rad,
@@ -137,7 +131,7 @@ pub fn map_errors(
     ];
     let mut out = Vec::new();
     for (i, row) in per_rad.rows.iter().enumerate() {
-        let (Some(j), Some(_)) = (row, sens.rows[i]) else {
+        let Some(j) = row else {
             continue;
         };
         let jv = Vector3::new(j[0], j[1], j[2]);
@@ -329,13 +323,7 @@ pub fn allowed_errors(
             }
         }
     }
-    let sens = crate::sensitivity::partials_for_state(mu_m3_s2, state);
-    let per_rad = partials_per_rad(
-        mu_m3_s2,
-        state.radius_m,
-        state.speed_m_s,
-        state.flight_path_angle_rad,
-    );
+    let per_rad = partials_per_rad_for_state(mu_m3_s2, state);
     let nominal = row_values(
         mu_m3_s2,
         state.radius_m,
@@ -350,7 +338,7 @@ pub fn allowed_errors(
     let mut alone = Vec::new();
     let mut m = Matrix3::zeros();
     for (i, row) in per_rad.rows.iter().enumerate() {
-        if let (Some(j), Some(t), Some(_)) = (row, tol.rows[i], sens.rows[i]) {
+        if let (Some(j), Some(t)) = (row, tol.rows[i]) {
             let jv = Vector3::new(j[0], j[1], j[2]) / t;
             m += jv * jv.transpose();
         }
@@ -359,7 +347,7 @@ pub fn allowed_errors(
         let mut linear = f64::INFINITY;
         let mut limited_by = None;
         for (i, row) in per_rad.rows.iter().enumerate() {
-            if let (Some(j), Some(t), Some(_)) = (row, tol.rows[i], sens.rows[i]) {
+            if let (Some(j), Some(t)) = (row, tol.rows[i]) {
                 let d = t / j[k].abs();
                 if d < linear {
                     linear = d;
@@ -530,7 +518,12 @@ mod tests {
             rows: [Some(5e3), Some(50e3), None, Some(1e-3), None],
         };
         let a = allowed_errors(mu, &st, &tol).unwrap();
-        let j = partials_per_rad(mu, st.radius_m, st.speed_m_s, st.flight_path_angle_rad);
+        let j = crate::sensitivity::partials_per_rad(
+            mu,
+            st.radius_m,
+            st.speed_m_s,
+            st.flight_path_angle_rad,
+        );
         // rp, ra and e are dependent (e = (ra - rp)/(ra + rp)), so to first
         // order one direction of burnout error leaves all three unchanged: its
         // axis is unbounded, and moving along it changes nothing.

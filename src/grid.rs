@@ -119,21 +119,10 @@ pub fn si_unit_text(kind: Kind) -> &'static str {
     }
 }
 
-/// Splits one part of a range into its number text and unit text.
-/// The number is the longest prefix that reads as a float.
+/// Splits one part of a range into its number text and unit text, exactly
+/// as the value reader does.
 fn split_part(text: &str) -> (&str, &str) {
-    let t = text.trim();
-    let mut best = 0;
-    for (i, _) in t
-        .char_indices()
-        .skip(1)
-        .chain(std::iter::once((t.len(), ' ')))
-    {
-        if t[..i].trim().parse::<f64>().is_ok() {
-            best = i;
-        }
-    }
-    (t[..best].trim(), t[best..].trim())
+    crate::units::split(text)
 }
 
 const OTHER_KINDS: [Kind; 6] = [

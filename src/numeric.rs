@@ -40,7 +40,7 @@ use crate::error::{g, Error};
 use crate::invert::{burnout_for_conic, forward_state, BurnoutState};
 use crate::kepler::{time_to_apoapsis_s, time_to_periapsis_s};
 use crate::orbit::forward;
-use crate::problem::{achieved, finish, Problem, Solved, SolverReport};
+use crate::problem::{finish, Problem, Solved, SolverReport};
 use crate::target::{conic_from_pair, Target, TargetQuantity};
 use argmin::core::{CostFunction, Executor, Gradient, Hessian, State, TerminationStatus};
 use argmin::solver::brent::{BrentOpt, BrentRoot};
@@ -889,7 +889,7 @@ fn report(
 ) -> Solved {
     let residuals = states
         .first()
-        .map(|st| actual_residuals(system, st))
+        .map(|st| crate::problem::target_residuals(system.mu, &system.targets, st))
         .unwrap_or_default();
     finish(
         problem,
@@ -903,25 +903,8 @@ fn report(
     )
 }
 
-/// Achieved minus targeted value of each target in SI (angles in deg).
-fn actual_residuals(system: &System, st: &BurnoutState) -> Vec<(String, f64)> {
-    system
-        .targets
-        .iter()
-        .map(|t| {
-            let got = achieved(system.mu, st, t.quantity).unwrap_or(f64::NAN);
-            let mut d = got - t.value;
-            if t.quantity == TargetQuantity::AngleToApoapsis {
-                d = (d + PI).rem_euclid(2.0 * PI) - PI;
-                d = d.to_degrees();
-            }
-            (t.quantity.key().to_string(), d)
-        })
-        .collect()
-}
-
 fn describe_residuals(system: &System, st: &BurnoutState) -> String {
-    actual_residuals(system, st)
+    crate::problem::target_residuals(system.mu, &system.targets, st)
         .iter()
         .zip(&system.targets)
         .map(|((_, d), t)| {

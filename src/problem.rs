@@ -180,18 +180,31 @@ pub fn solve(problem: &Problem) -> Result<Solved, Error> {
     Ok(finish(problem, states, closed_form_report(problem, None)))
 }
 
+/// Achieved minus targeted value of each target at a state, keyed as
+/// [`TargetQuantity::key`]: SI, except the angle to apoapsis, in degrees and
+/// wrapped to (-180, 180]. NaN where the state's orbit lacks the quantity.
+pub(crate) fn target_residuals(
+    mu_m3_s2: f64,
+    targets: &[Target],
+    st: &BurnoutState,
+) -> Vec<(String, f64)> {
+    targets
+        .iter()
+        .map(|t| {
+            let got = achieved(mu_m3_s2, st, t.quantity).unwrap_or(f64::NAN);
+            let mut d = got - t.value;
+            if t.quantity == TargetQuantity::AngleToApoapsis {
+                let pi = std::f64::consts::PI;
+                d = ((d + pi).rem_euclid(2.0 * pi) - pi).to_degrees();
+            }
+            (t.quantity.key().to_string(), d)
+        })
+        .collect()
+}
+
 fn closed_form_report(problem: &Problem, first: Option<&BurnoutState>) -> SolverReport {
     let residuals = first
-        .map(|st| {
-            problem
-                .targets
-                .iter()
-                .filter_map(|t| {
-                    achieved(problem.body.mu_m3_s2, st, t.quantity)
-                        .map(|a| (t.quantity.key().to_string(), a - t.value))
-                })
-                .collect()
-        })
+        .map(|st| target_residuals(problem.body.mu_m3_s2, &problem.targets, st))
         .unwrap_or_default();
     SolverReport {
         method: "closed-form".into(),

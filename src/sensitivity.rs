@@ -107,18 +107,41 @@ pub fn partials(
 /// (the classification the user sees), not by an eccentricity recomputed from
 /// the rounded state: an exact parabola has no sma, apoapsis or period rows.
 pub fn partials_for_state(mu_m3_s2: f64, state: &crate::invert::BurnoutState) -> Sensitivity {
-    let mut s = partials(
-        mu_m3_s2,
-        state.radius_m,
-        state.speed_m_s,
-        state.flight_path_angle_rad,
-    );
-    let closed = state.conic.apoapsis_radius_m().is_some();
-    if !closed {
+    rows_of_conic(
+        partials(
+            mu_m3_s2,
+            state.radius_m,
+            state.speed_m_s,
+            state.flight_path_angle_rad,
+        ),
+        &state.conic,
+    )
+}
+
+/// As [`partials_for_state`], with the flight-path-angle column per radian.
+pub fn partials_per_rad_for_state(
+    mu_m3_s2: f64,
+    state: &crate::invert::BurnoutState,
+) -> Sensitivity {
+    rows_of_conic(
+        partials_per_rad(
+            mu_m3_s2,
+            state.radius_m,
+            state.speed_m_s,
+            state.flight_path_angle_rad,
+        ),
+        &state.conic,
+    )
+}
+
+/// Nulls the rows the conic does not have (apoapsis and period of an open
+/// orbit, sma of a parabola).
+fn rows_of_conic(mut s: Sensitivity, conic: &crate::orbit::Conic) -> Sensitivity {
+    if conic.apoapsis_radius_m().is_none() {
         s.rows[1] = None;
         s.rows[4] = None;
     }
-    if state.conic.sma_m().is_none() {
+    if conic.sma_m().is_none() {
         s.rows[2] = None;
     }
     s

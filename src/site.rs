@@ -457,27 +457,8 @@ pub fn solve_with_site(
     validate(site)?;
     let body = &problem.body;
     let planar = solve(problem)?;
-    let Some(i_t) = site.inclination_rad else {
-        let Some(az) = site.azimuth_rad else {
-            return Err(Error::Usage(
-                "a launch site needs --azimuth or a target --inclination".into(),
-            ));
-        };
-        let mut solved = planar;
-        for s in &mut solved.solutions {
-            let st = &s.state;
-            s.site = Some(site_state(
-                body,
-                site,
-                az,
-                st.radius_m,
-                st.speed_m_s,
-                st.flight_path_angle_rad,
-            )?);
-        }
-        return Ok(solved);
-    };
-    let lat_site = geocentric_latitude(body, site.latitude_geodetic_rad);
+    // A given launch azimuth decorates the planar answer; a target
+    // inclination beside it is a check.
     if let Some(az) = site.azimuth_rad {
         let mut solved = planar;
         for s in &mut solved.solutions {
@@ -490,24 +471,34 @@ pub fn solve_with_site(
                 st.speed_m_s,
                 st.flight_path_angle_rad,
             )?;
-            let d = ss.inclination_rad - i_t;
-            if d.abs() > 1e-9 {
-                return Err(Error::Infeasible(format!(
-                    "the targets conflict: launch azimuth {} deg gives inclination {} deg, not the target {} deg (residual {} deg)",
-                    g(az.to_degrees()),
-                    g(ss.inclination_rad.to_degrees()),
-                    g(i_t.to_degrees()),
-                    g(d.to_degrees())
-                )));
+            if let Some(i_t) = site.inclination_rad {
+                let d = ss.inclination_rad - i_t;
+                if d.abs() > 1e-9 {
+                    return Err(Error::Infeasible(format!(
+                        "the targets conflict: launch azimuth {} deg gives inclination {} deg, not the target {} deg (residual {} deg)",
+                        g(az.to_degrees()),
+                        g(ss.inclination_rad.to_degrees()),
+                        g(i_t.to_degrees()),
+                        g(d.to_degrees())
+                    )));
+                }
             }
             s.site = Some(ss);
         }
-        solved
-            .solver
-            .residuals
-            .push(("inclination_deg".into(), 0.0));
+        if site.inclination_rad.is_some() {
+            solved
+                .solver
+                .residuals
+                .push(("inclination_deg".into(), 0.0));
+        }
         return Ok(solved);
     }
+    let Some(i_t) = site.inclination_rad else {
+        return Err(Error::Usage(
+            "a launch site needs --azimuth or a target --inclination".into(),
+        ));
+    };
+    let lat_site = geocentric_latitude(body, site.latitude_geodetic_rad);
     // Coupled solve for the launch azimuth with the planar unknowns.
     let system = crate::numeric::System::new(problem)?;
     let coupled = SiteSystem {
@@ -590,14 +581,8 @@ pub fn solve_with_site(
         states.push(st);
     }
     let best = good[0];
-    let mut residuals: Vec<(String, f64)> = problem
-        .targets
-        .iter()
-        .filter_map(|t| {
-            crate::problem::achieved(body.mu_m3_s2, &states[0], t.quantity)
-                .map(|a| (t.quantity.key().to_string(), a - t.value))
-        })
-        .collect();
+    let mut residuals =
+        crate::problem::target_residuals(body.mu_m3_s2, &problem.targets, &states[0]);
     residuals.push((
         "inclination_deg".into(),
         (sites[0].inclination_rad - i_t).to_degrees(),

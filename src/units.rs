@@ -129,8 +129,9 @@ pub struct Parsed {
     pub kind: Kind,
 }
 
-/// Splits `text` into a numeric part and a unit part.
-fn split(text: &str) -> (&str, &str) {
+/// Splits `text` into a numeric part and a unit part (the reader's own
+/// split, shared with range parsing).
+pub(crate) fn split(text: &str) -> (&str, &str) {
     let t = text.trim();
     // The unit starts at the first letter that cannot continue a number.
     let bytes = t.as_bytes();
