@@ -31,6 +31,12 @@ pub enum Warning {
         /// The limit, m.
         min_alt_m: f64,
     },
+    /// The roots were found by a least-squares search from starting points,
+    /// which is not proven to find every root.
+    SearchNotExhaustive {
+        /// How many starting points were tried.
+        starts: usize,
+    },
 }
 
 impl std::fmt::Display for Warning {
@@ -59,6 +65,10 @@ impl std::fmt::Display for Warning {
                 "periapsis altitude {} m is below the minimum safe periapsis altitude {} m",
                 g(*periapsis_alt_m),
                 g(*min_alt_m)
+            ),
+            Warning::SearchNotExhaustive { starts } => write!(
+                f,
+                "roots found by least squares from {starts} starting points: the search is not proven exhaustive, another burnout state may also meet the targets"
             ),
         }
     }

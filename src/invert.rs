@@ -102,6 +102,83 @@ pub fn burnout_for_conic(
     Ok(states[..n].to_vec())
 }
 
+/// The burnout states on `conic` whose flight-path angle is `fpa_rad`, with
+/// the burnout radius free: where on the orbit the path is inclined that much.
+///
+/// On a conic tan(fpa) = e sin(nu) / (1 + e cos(nu)), which rearranges to
+/// sin(nu - fpa) = sin(fpa) / e: two true anomalies
+/// nu = fpa + asin(sin(fpa)/e) and nu = fpa + pi - asin(sin(fpa)/e), each at
+/// r = p / (1 + e cos(nu)) with the speed from vis-viva. None when
+/// |sin(fpa)| > e; on an open orbit only those short of the asymptote.
+/// Ordered by radius.
+///
+/// # Errors
+/// [`Error::Infeasible`] when no point of the orbit has that angle.
+pub fn burnout_for_conic_at_fpa(
+    mu_m3_s2: f64,
+    conic: &Conic,
+    fpa_rad: f64,
+) -> Result<Vec<BurnoutState>, Error> {
+    check_fpa(fpa_rad)?;
+    let e = conic.ecc();
+    let p = conic.semi_latus_rectum_m();
+    let ratio = fpa_rad.sin() / e;
+    let mut out: Vec<BurnoutState> = Vec::new();
+    if ratio.abs() <= 1.0 && e > 0.0 {
+        let k = ratio.asin();
+        for nu in [fpa_rad + k, fpa_rad + PI - k] {
+            let denom = 1.0 + e * nu.cos();
+            if denom.is_nan() || denom <= 0.0 {
+                continue;
+            }
+            let r = p / denom;
+            let v2 = mu_m3_s2 * (2.0 / r - conic.inv_sma_per_m());
+            if !(r.is_finite() && v2 > 0.0) {
+                continue;
+            }
+            let st = forward_state(mu_m3_s2, r, check_speed(v2.sqrt())?, fpa_rad)?;
+            if !out
+                .iter()
+                .any(|o| (o.radius_m - r).abs() <= APSIS_TOLERANCE * r)
+            {
+                out.push(st);
+            }
+        }
+    }
+    if out.is_empty() {
+        return Err(Error::Infeasible(format!(
+            "no point of the target orbit (eccentricity {}) has a flight-path angle of {} deg: |sin(fpa)| must not exceed the eccentricity",
+            g(e),
+            g(fpa_rad.to_degrees())
+        )));
+    }
+    out.sort_by(|a, b| a.radius_m.total_cmp(&b.radius_m));
+    Ok(out)
+}
+
+/// The burnout states on `conic` at speed `speed_m_s`, with the burnout
+/// radius free: vis-viva fixes the radius, r = 2 / (v^2/mu + 1/a), and both
+/// branches follow there.
+///
+/// # Errors
+/// [`Error::Infeasible`] when the orbit never moves at that speed, and the
+/// errors of [`burnout_for_conic`].
+pub fn burnout_for_conic_at_speed(
+    mu_m3_s2: f64,
+    conic: &Conic,
+    speed_m_s: f64,
+) -> Result<Vec<BurnoutState>, Error> {
+    positive("burnout speed", speed_m_s, "m/s")?;
+    let r = 2.0 / (speed_m_s * speed_m_s / mu_m3_s2 + conic.inv_sma_per_m());
+    if !(r.is_finite() && r > 0.0) {
+        return Err(Error::Infeasible(format!(
+            "the target orbit never moves at {} m/s: its speeds lie above the speed at infinity",
+            g(speed_m_s)
+        )));
+    }
+    burnout_for_conic(mu_m3_s2, conic, r)
+}
+
 /// The state reached by the forward map, labelled by the sign of the angle.
 ///
 /// # Errors

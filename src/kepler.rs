@@ -1,16 +1,14 @@
-//! Time of flight on a conic from Kepler's equation, in forms that keep their
-//! digits near e = 0 and e = 1.
+//! Time of flight on a conic from Kepler's equation, from the burnout state,
+//! in forms that keep their digits near e = 0 and e = 1.
 //!
-//! - Ellipse: E = atan2(sqrt(1 - e^2) sin nu, e + cos nu),
-//!   M = E - e sin E written as (1 - e) E + e (E - sin E);
-//! - hyperbola: sinh F = sqrt(e^2 - 1) sin nu / (1 + e cos nu),
-//!   M = e sinh F - F written as (e - 1) sinh F + (sinh F - F);
-//! - parabola: Barker's equation, t = sqrt(p^3/mu) (D + D^3/3) / 2 with D = tan(nu/2).
+//! See [`coast_times`] for the formulation: anomalies from the state's own
+//! well-conditioned components, never from a rounded eccentricity and true
+//! anomaly, and every time a sum of non-negative terms.
 //!
 //! (Vallado, *Fundamentals of Astrodynamics and Applications*, 4th ed., sec. 2.2-2.3;
 //! Curtis, *Orbital Mechanics for Engineering Students*, ch. 3.)
 
-use crate::orbit::Conic;
+use crate::orbit::EnergyRatio;
 use std::f64::consts::PI;
 
 /// x - sin x, accurate for small x (series below 0.5 rad).
@@ -48,55 +46,127 @@ fn sinh_minus_x(x: f64) -> f64 {
     }
 }
 
-/// Time since periapsis passage at true anomaly `nu_rad`, s.
+/// Times of flight from a burnout state to its next apsides.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CoastTimes {
+    /// Time to the next periapsis, s; `None` on an open orbit already past
+    /// periapsis. 0 at periapsis.
+    pub to_periapsis_s: Option<f64>,
+    /// Time to the next apoapsis, s; `None` on an open orbit. 0 at apoapsis.
+    pub to_apoapsis_s: Option<f64>,
+    /// Time since periapsis, s: in [0, period) on an ellipse; on an open
+    /// orbit negative before periapsis, positive after.
+    pub since_periapsis_s: f64,
+}
+
+/// Times of flight from the burnout state (radius, speed, flight-path angle)
+/// to the next periapsis and apoapsis, computed from the state itself so
+/// that no digit is lost near circular, near parabolic (either side) or near
+/// radial orbits.
 ///
-/// Ellipse: in [0, period) for nu in [0, 2 pi). Open orbits: negative before
-/// periapsis (nu in (pi, 2 pi), taken as nu - 2 pi), positive after.
-pub fn time_since_periapsis_s(mu_m3_s2: f64, conic: &Conic, nu_rad: f64) -> f64 {
-    let e = conic.ecc();
-    let nu = nu_rad.rem_euclid(2.0 * PI);
-    if e < 1.0 {
-        let a = conic.sma_m().unwrap_or(f64::NAN);
-        let n = (mu_m3_s2 / (a * a * a)).sqrt();
-        let big_e = ((1.0 - e * e).sqrt() * nu.sin())
-            .atan2(e + nu.cos())
-            .rem_euclid(2.0 * PI);
-        let m = (1.0 - e) * big_e + e * x_minus_sin(big_e);
-        m / n
-    } else {
-        let nu_s = if nu > PI { nu - 2.0 * PI } else { nu };
-        if crate::orbit::exactly(e, 1.0) {
-            let p = conic.semi_latus_rectum_m();
-            let d = (0.5 * nu_s).tan();
-            0.5 * (p * p * p / mu_m3_s2).sqrt() * (d + d * d * d / 3.0)
+/// With Q = r v^2 / mu (and Q - 1, 2 - Q to double-double accuracy, see
+/// [`crate::orbit::EnergyRatio`]), the eccentric anomaly comes from two
+/// well-conditioned components, e cos E = Q - 1 and
+/// e sin E = sqrt(Q (2 - Q)) sin(fpa), and 1 - e = Q (2 - Q) cos^2(fpa) / (1 + e).
+/// The time from periapsis to an anomaly x is a^(3/2)/sqrt(mu) times
+/// (1 - e) x + e (x - sin x), a sum of non-negative terms; the time to
+/// apoapsis uses the anomaly still to go, x' = pi - E, as x' + e sin x'.
+/// Every time is a sum of non-negative terms: none is a difference of two
+/// large times, and none uses the rounded eccentricity where 1 - e or
+/// e - 1 would cancel. Hyperbola: e cosh F = Q - 1,
+/// e sinh F = sqrt(Q (Q - 2)) sin(fpa), t = (e - 1) sinh F + (sinh F - F)
+/// in units of (-a)^(3/2)/sqrt(mu). Exact parabola (2 - Q = 0 to double-double
+/// accuracy): Barker's equation with tan(nu/2) = tan(fpa).
+/// (Kepler's equation in these forms: Vallado, *Fundamentals of Astrodynamics
+/// and Applications*, 4th ed., sec. 2.2-2.3; Battin, *An Introduction to the
+/// Mathematics and Methods of Astrodynamics*, 1999, ch. 4.) The universal
+/// variable of those texts is chi = sqrt(a) E; the terms above are its
+/// Stumpff-function form sqrt(mu) t = rp chi + e chi^3 S(alpha chi^2) split
+/// by regime.
+///
+/// Returns `None` for a non-physical state (non-positive radius or speed,
+/// a vertical flight-path angle, non-finite values).
+pub fn coast_times(
+    mu_m3_s2: f64,
+    radius_m: f64,
+    speed_m_s: f64,
+    flight_path_angle_rad: f64,
+) -> Option<CoastTimes> {
+    let (r, v, fpa) = (radius_m, speed_m_s, flight_path_angle_rad);
+    if !(r > 0.0 && v > 0.0 && mu_m3_s2 > 0.0 && fpa.abs() < 0.5 * PI && fpa.is_finite()) {
+        return None;
+    }
+    let EnergyRatio {
+        q,
+        q_minus_1,
+        two_minus_q,
+    } = EnergyRatio::new(mu_m3_s2, r, v);
+    let (s, c) = fpa.sin_cos();
+    let descending = s < 0.0;
+    let out = if two_minus_q > 0.0 {
+        let k = (q * two_minus_q).sqrt();
+        let e_sin = k * s;
+        let e_cos = q_minus_1;
+        let e = e_cos.hypot(e_sin);
+        let one_minus_e = q * two_minus_q * c * c / (1.0 + e);
+        let a = r / two_minus_q;
+        let unit = a * (a / mu_m3_s2).sqrt();
+        let half_period = PI * unit;
+        // Time from periapsis to eccentric anomaly x in [0, pi].
+        let from_periapsis = |x: f64| unit * (one_minus_e * x + e * x_minus_sin(x));
+        if descending {
+            let x = (-e_sin).atan2(e_cos);
+            let to_peri = from_periapsis(x);
+            CoastTimes {
+                to_periapsis_s: Some(to_peri),
+                to_apoapsis_s: Some(half_period + to_peri),
+                since_periapsis_s: 2.0 * half_period - to_peri,
+            }
         } else {
-            let a = -conic.sma_m().unwrap_or(f64::NAN);
-            let n = (mu_m3_s2 / (a * a * a)).sqrt();
-            let sh = (e * e - 1.0).sqrt() * nu_s.sin() / (1.0 + e * nu_s.cos());
-            let f = sh.asinh();
-            let m = (e - 1.0) * sh + sinh_minus_x(f);
-            m / n
+            // Anomaly still to go to apoapsis, in [0, pi].
+            let x_to_apo = e_sin.atan2(-e_cos);
+            let to_apo = unit * (x_to_apo + e_sin);
+            let at_periapsis = e_sin == 0.0 && e_cos >= 0.0;
+            CoastTimes {
+                to_periapsis_s: Some(if at_periapsis {
+                    0.0
+                } else {
+                    half_period + to_apo
+                }),
+                to_apoapsis_s: Some(to_apo),
+                since_periapsis_s: from_periapsis(e_sin.atan2(e_cos)),
+            }
         }
-    }
-}
-
-/// Time of flight from true anomaly `nu_rad` to the next apoapsis, s; `None`
-/// for open orbits (no apoapsis).
-pub fn time_to_apoapsis_s(mu_m3_s2: f64, conic: &Conic, nu_rad: f64) -> Option<f64> {
-    let period = conic.period_s(mu_m3_s2)?;
-    let t = time_since_periapsis_s(mu_m3_s2, conic, nu_rad);
-    Some((0.5 * period - t).rem_euclid(period))
-}
-
-/// Time of flight from true anomaly `nu_rad` to the next periapsis, s; for an
-/// open orbit only while approaching periapsis, else `None`.
-pub fn time_to_periapsis_s(mu_m3_s2: f64, conic: &Conic, nu_rad: f64) -> Option<f64> {
-    let t = time_since_periapsis_s(mu_m3_s2, conic, nu_rad);
-    match conic.period_s(mu_m3_s2) {
-        Some(period) => Some((period - t).rem_euclid(period)),
-        None if t <= 0.0 => Some(-t),
-        None => None,
-    }
+    } else if two_minus_q < 0.0 {
+        let q_minus_2 = -two_minus_q;
+        let k = (q * q_minus_2).sqrt();
+        let e_sinh = k * s;
+        let e = (1.0 + q * q_minus_2 * c * c).sqrt();
+        let e_minus_1 = q * q_minus_2 * c * c / (1.0 + e);
+        let a = r / q_minus_2;
+        let unit = a * (a / mu_m3_s2).sqrt();
+        let sinh_f = e_sinh / e;
+        let f = sinh_f.asinh();
+        let since = unit * (e_minus_1 * sinh_f + sinh_minus_x(f));
+        CoastTimes {
+            to_periapsis_s: (s <= 0.0).then_some(if s == 0.0 { 0.0 } else { -since }),
+            to_apoapsis_s: None,
+            since_periapsis_s: since,
+        }
+    } else {
+        // Parabola: p = 2 r cos^2(fpa), D = tan(nu/2) = tan(fpa).
+        let p = 2.0 * r * c * c;
+        let d = s / c;
+        let since = 0.5 * (p * p * p / mu_m3_s2).sqrt() * (d + d * d * d / 3.0);
+        CoastTimes {
+            to_periapsis_s: (s <= 0.0).then_some(if s == 0.0 { 0.0 } else { -since }),
+            to_apoapsis_s: None,
+            since_periapsis_s: since,
+        }
+    };
+    let finite = |t: Option<f64>| t.is_none_or(f64::is_finite);
+    (out.since_periapsis_s.is_finite() && finite(out.to_periapsis_s) && finite(out.to_apoapsis_s))
+        .then_some(out)
 }
 
 #[cfg(test)]
@@ -106,11 +176,24 @@ mod tests {
 
     const MU: f64 = crate::body::EARTH_MU_M3_S2;
 
+    /// Burnout state (r, v, fpa) on the conic (rp, e) at true anomaly nu.
+    fn state_at(rp: f64, e: f64, nu: f64) -> (f64, f64, f64) {
+        let p = rp * (1.0 + e);
+        let r = p / (1.0 + e * nu.cos());
+        let v = (MU * (2.0 / r - (1.0 - e) / rp)).sqrt();
+        let fpa = (e * nu.sin()).atan2(1.0 + e * nu.cos());
+        (r, v, fpa)
+    }
+
     #[test]
     fn half_period_from_periapsis_to_apoapsis() {
-        let c = Conic::from_apsides(7e6, 9e6).unwrap();
-        let t = time_to_apoapsis_s(MU, &c, 0.0).unwrap();
-        assert_relative_eq!(t, 0.5 * c.period_s(MU).unwrap(), max_relative = 1e-14);
+        let (rp, ra) = (7e6, 9e6);
+        let a: f64 = 0.5 * (rp + ra);
+        let v = (MU * (2.0 / rp - 1.0 / a)).sqrt();
+        let t = coast_times(MU, rp, v, 0.0).unwrap();
+        let period = 2.0 * PI * (a * a * a / MU).sqrt();
+        assert_relative_eq!(t.to_apoapsis_s.unwrap(), 0.5 * period, max_relative = 1e-13);
+        assert_eq!(t.to_periapsis_s, Some(0.0));
     }
 
     #[test]
@@ -118,9 +201,13 @@ mod tests {
         // Curtis, Orbital Mechanics for Engineering Students (3rd ed., Example 3.1;
         // from memory): rp = 9600 km, ra = 21000 km, mu = 398600 km^3/s^2;
         // time from perigee to nu = 120 deg is 4077 s (printed to 4 digits).
-        let c = Conic::from_apsides(9.6e6, 21e6).unwrap();
-        let t = time_since_periapsis_s(3.986e14, &c, 120f64.to_radians());
-        assert_relative_eq!(t, 4077.0, max_relative = 5e-4);
+        let (rp, ra) = (9.6e6, 21e6);
+        let e = (ra - rp) / (ra + rp);
+        let (r, v, fpa) = state_at(rp, e, 120f64.to_radians());
+        let mu = 3.986e14;
+        let v = v * (mu / MU).sqrt();
+        let t = coast_times(mu, r, v, fpa).unwrap();
+        assert_relative_eq!(t.since_periapsis_s, 4077.0, max_relative = 5e-4);
     }
 
     #[test]
@@ -133,22 +220,106 @@ mod tests {
 
     #[test]
     fn near_parabolic_ellipse_and_hyperbola_approach_barker() {
-        let rp = 7e6;
-        let nu = 1.0;
-        let par = time_since_periapsis_s(MU, &Conic::from_periapsis_ecc(rp, 1.0).unwrap(), nu);
-        let ell =
-            time_since_periapsis_s(MU, &Conic::from_periapsis_ecc(rp, 1.0 - 1e-9).unwrap(), nu);
-        let hyp =
-            time_since_periapsis_s(MU, &Conic::from_periapsis_ecc(rp, 1.0 + 1e-9).unwrap(), nu);
-        assert_relative_eq!(ell, par, max_relative = 1e-8);
-        assert_relative_eq!(hyp, par, max_relative = 1e-8);
+        let r = 7e6;
+        let fpa = -0.4;
+        let v_esc = (2.0 * MU / r).sqrt();
+        let par = coast_times(MU, r, v_esc, fpa).unwrap();
+        // The double nearest escape speed is not exactly parabolic: compare
+        // the three at 1e-8 of a speed step 1e-9 away.
+        let ell = coast_times(MU, r, v_esc * (1.0 - 1e-9), fpa).unwrap();
+        let hyp = coast_times(MU, r, v_esc * (1.0 + 1e-9), fpa).unwrap();
+        let t = par.to_periapsis_s.unwrap();
+        assert_relative_eq!(ell.to_periapsis_s.unwrap(), t, max_relative = 1e-8);
+        assert_relative_eq!(hyp.to_periapsis_s.unwrap(), t, max_relative = 1e-8);
+        // Barker's equation itself at tan(nu/2) = tan(fpa), p = 2 r cos^2 fpa.
+        let p = 2.0 * r * fpa.cos().powi(2);
+        let d = fpa.tan();
+        let barker = -0.5 * (p * p * p / MU).sqrt() * (d + d * d * d / 3.0);
+        assert_relative_eq!(t, barker, max_relative = 1e-8);
     }
 
     #[test]
     fn open_orbit_time_to_periapsis_only_when_approaching() {
-        let c = Conic::from_periapsis_ecc(7e6, 1.5).unwrap();
-        assert!(time_to_periapsis_s(MU, &c, 0.5).is_none());
-        let t = time_to_periapsis_s(MU, &c, 2.0 * PI - 0.5).unwrap();
-        assert_relative_eq!(t, time_since_periapsis_s(MU, &c, 0.5), max_relative = 1e-13);
+        let r = 7e6;
+        let v = 1.2 * (2.0 * MU / r).sqrt();
+        assert!(coast_times(MU, r, v, 0.3).unwrap().to_periapsis_s.is_none());
+        let t_out = coast_times(MU, r, v, 0.3).unwrap().since_periapsis_s;
+        let t_in = coast_times(MU, r, v, -0.3).unwrap();
+        assert_relative_eq!(t_in.to_periapsis_s.unwrap(), t_out, max_relative = 1e-14);
+        assert!(t_in.to_apoapsis_s.is_none());
+    }
+
+    #[test]
+    fn ascending_and_descending_apsis_times_differ_by_half_a_period() {
+        let (r, v, fpa) = state_at(7e6, 0.3, 2.0);
+        let up = coast_times(MU, r, v, fpa).unwrap();
+        let a: f64 = 7e6 / 0.7;
+        let half = PI * (a * a * a / MU).sqrt();
+        assert_relative_eq!(
+            up.to_periapsis_s.unwrap() - up.to_apoapsis_s.unwrap(),
+            half,
+            max_relative = 1e-12
+        );
+        let down = coast_times(MU, r, v, -fpa).unwrap();
+        assert_relative_eq!(
+            down.to_apoapsis_s.unwrap() - down.to_periapsis_s.unwrap(),
+            half,
+            max_relative = 1e-12
+        );
+    }
+
+    #[test]
+    #[allow(clippy::excessive_precision)] // reference digits as printed
+    fn coast_times_match_a_50_digit_reference_in_the_hard_regimes() {
+        // Independent check: Kepler's equation evaluated at 50 digits with
+        // mpmath (E from atan2(sqrt(Q(2-Q)) sin fpa, Q - 1), M = E - e sin E,
+        // times as (T - M/n) mod T and (T/2 - M/n) mod T; hyperbola
+        // e sinh F - F), taking these doubles as exact inputs; run 2026-12-02.
+        let re = crate::body::EARTH_RADIUS_M;
+        // (r, v, fpa, time to periapsis, time to apoapsis)
+        let cases: [(f64, f64, f64, f64, Option<f64>); 4] = [
+            // Near-parabolic ellipse, 1 - v/v_esc = 1e-7, climbing at 30 deg.
+            (
+                re + 300e3,
+                10925.873807258708,
+                std::f64::consts::FRAC_PI_6,
+                21468614279670.112,
+                Some(10734307139580.380),
+            ),
+            // Near-parabolic hyperbola, v/v_esc - 1 = 1e-8, descending 30 deg.
+            (
+                re + 300e3,
+                10925.875009104944,
+                -std::f64::consts::FRAC_PI_6,
+                509.35180057907137,
+                None,
+            ),
+            // Near-circular (v = 1 + 1e-9 circular), fpa 1e-6 deg.
+            (
+                re + 400e3,
+                7668.558183075614,
+                1.7453292519943295e-08,
+                4266.0643249751553,
+                Some(1489.2521810186042),
+            ),
+            // Near-radial, fpa 89.9999 deg.
+            (
+                re + 200e3,
+                7000.0,
+                1.5707945814656445,
+                3575.1832688810004,
+                Some(1533.5537272740257),
+            ),
+        ];
+        for (r, v, fpa, tp, ta) in cases {
+            let t = coast_times(MU, r, v, fpa).unwrap();
+            assert_relative_eq!(t.to_periapsis_s.unwrap(), tp, max_relative = 1e-13);
+            match ta {
+                Some(ta) => {
+                    assert_relative_eq!(t.to_apoapsis_s.unwrap(), ta, max_relative = 1e-13)
+                }
+                None => assert!(t.to_apoapsis_s.is_none()),
+            }
+        }
     }
 }

@@ -37,9 +37,11 @@
 
 use crate::body::Body;
 use crate::error::{g, Error};
+use crate::feasibility::Warning;
 use crate::invert::{burnout_for_conic, forward_state, BurnoutState};
-use crate::kepler::{time_to_apoapsis_s, time_to_periapsis_s};
+use crate::kepler::coast_times;
 use crate::orbit::forward;
+use crate::orbit::EnergyRatio;
 use crate::problem::{finish, Problem, Solved, SolverReport};
 use crate::target::{conic_from_pair, Target, TargetQuantity};
 use argmin::core::{CostFunction, Executor, Gradient, Hessian, State, TerminationStatus};
@@ -50,8 +52,12 @@ use std::f64::consts::{FRAC_PI_2, PI};
 
 /// Largest scaled residual at which over-specified targets count as agreeing.
 pub const AGREEMENT_TOLERANCE: f64 = 1e-9;
-/// Largest scaled residual at which a square system counts as solved.
+/// Largest scaled residual at which a square system counts as solved by
+/// the least-squares path.
 pub const ROOT_TOLERANCE: f64 = 1e-11;
+/// The rounding floor of a scaled residual evaluated at an exact root (the
+/// bracketing paths add the rounding of the root itself times the slope).
+pub const RESIDUAL_FLOOR: f64 = 1e-12;
 
 /// A burnout quantity that can be left free.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -179,63 +185,75 @@ impl System {
             .collect()
     }
 
+    /// Upper end of the burnout-radius domain, m: beyond the targets' radii
+    /// and, for a fixed speed, twice the radius at which it is the escape
+    /// speed (capped at 1e4 body radii).
+    fn radius_domain_max_m(&self) -> f64 {
+        let escape_r = self
+            .fixed_speed_m_s
+            .map(|v| 4.0 * self.mu / (v * v))
+            .unwrap_or(0.0)
+            .min(1e4 * self.body_radius_m);
+        self.r_max.max(escape_r)
+    }
+
     /// Scaled, smooth residual of each target at a burnout state; `None` where
     /// a target does not exist for the trial orbit (e.g. time to apoapsis on
     /// an open orbit).
     pub fn residuals_at(&self, r: f64, v: f64, gamma: f64) -> Option<Vec<f64>> {
+        (0..self.targets.len())
+            .map(|i| self.residual_of(i, r, v, gamma))
+            .collect()
+    }
+
+    /// Scaled, smooth residual of target `i` at a burnout state; `None` where
+    /// it does not exist for the trial orbit.
+    fn residual_of(&self, i: usize, r: f64, v: f64, gamma: f64) -> Option<f64> {
         if !(r.is_finite() && v.is_finite() && gamma.is_finite()) || r <= 0.0 || v <= 0.0 {
             return None;
         }
         let mu = self.mu;
+        let t = self.targets.get(i)?;
         let (s, c) = gamma.sin_cos();
-        let q = r * v * v / mu;
-        let e = (q * c * c - 1.0).hypot(q * s * c);
+        let EnergyRatio {
+            q,
+            q_minus_1,
+            two_minus_q,
+        } = EnergyRatio::new(mu, r, v);
+        let e = (q_minus_1 - q * s * s).hypot(q * s * c);
         let p = r * q * c * c;
-        let inv_a = (2.0 - q) / r;
-        let mut out = Vec::with_capacity(self.targets.len());
-        let mut conic_nu = None;
-        for t in &self.targets {
-            use TargetQuantity as Q;
-            let x = t.value;
-            let res = match t.quantity {
-                Q::PeriapsisRadius => p / (1.0 + e) / x - 1.0,
-                Q::ApoapsisRadius => x * (1.0 - e) / p - 1.0,
-                Q::Sma => x * inv_a - 1.0,
-                Q::Period => {
-                    let n = 2.0 * PI / x;
-                    let a_t = (mu / (n * n)).cbrt();
-                    a_t * inv_a - 1.0
-                }
-                Q::C3 => (-mu * inv_a - x) * self.r_ref / mu,
-                Q::SpecificEnergy => (-0.5 * mu * inv_a - x) * self.r_ref / mu,
-                Q::Ecc => e - x,
-                Q::SemiLatusRectum => p / x - 1.0,
-                Q::TimeToApoapsis | Q::TimeToPeriapsis | Q::AngleToApoapsis => {
-                    if conic_nu.is_none() {
-                        conic_nu = Some(forward(mu, r, v, gamma).ok()?);
-                    }
-                    let (conic, nu) = conic_nu?;
-                    match t.quantity {
-                        Q::TimeToApoapsis => time_to_apoapsis_s(mu, &conic, nu)? / x - 1.0,
-                        Q::TimeToPeriapsis => time_to_periapsis_s(mu, &conic, nu)? / x - 1.0,
-                        _ => {
-                            conic.apoapsis_radius_m()?;
-                            let d = (PI - nu - x).rem_euclid(2.0 * PI);
-                            if d > PI {
-                                d - 2.0 * PI
-                            } else {
-                                d
-                            }
-                        }
-                    }
-                }
-            };
-            if !res.is_finite() {
-                return None;
+        let inv_a = two_minus_q / r;
+        use TargetQuantity as Q;
+        let x = t.value;
+        let res = match t.quantity {
+            Q::PeriapsisRadius => p / (1.0 + e) / x - 1.0,
+            Q::ApoapsisRadius => x * (1.0 - e) / p - 1.0,
+            Q::Sma => x * inv_a - 1.0,
+            Q::Period => {
+                let n = 2.0 * PI / x;
+                let a_t = (mu / (n * n)).cbrt();
+                a_t * inv_a - 1.0
             }
-            out.push(res);
-        }
-        Some(out)
+            Q::C3 => (-mu * inv_a - x) * self.r_ref / mu,
+            Q::SpecificEnergy => (-0.5 * mu * inv_a - x) * self.r_ref / mu,
+            Q::Ecc => e - x,
+            Q::SemiLatusRectum => p / x - 1.0,
+            Q::TimeToApoapsis => coast_times(mu, r, v, gamma)?.to_apoapsis_s? / x - 1.0,
+            Q::TimeToPeriapsis => coast_times(mu, r, v, gamma)?.to_periapsis_s? / x - 1.0,
+            Q::AngleToApoapsis => {
+                if two_minus_q <= 0.0 {
+                    return None;
+                }
+                let (_, nu) = forward(mu, r, v, gamma).ok()?;
+                let d = (PI - nu - x).rem_euclid(2.0 * PI);
+                if d > PI {
+                    d - 2.0 * PI
+                } else {
+                    d
+                }
+            }
+        };
+        res.is_finite().then_some(res)
     }
 
     fn residuals_x(&self, x: &[f64]) -> Option<Vec<f64>> {
@@ -376,73 +394,106 @@ pub(crate) fn trust_region<S: Residuals>(system: &S, x0: Vec<f64>) -> Option<Run
     })
 }
 
-/// Scalar residual of a one-unknown, one-target system in its natural
-/// coordinate (speed m/s, angle rad, or radius m).
-struct Scalar<'a> {
-    system: &'a System,
+/// A one-parameter curve of burnout states with one scalar residual along
+/// it: the single free quantity of a one-unknown system, or the flight-path
+/// angle along a sheet of states that meet an orbit-element target exactly.
+trait Line {
+    /// Burnout state (r, v, fpa) at parameter `y`, `None` off the curve.
+    fn state(&self, y: f64) -> Option<(f64, f64, f64)>;
+    /// Residual at `y`, `None` where the target does not exist.
+    fn eval(&self, y: f64) -> Option<f64>;
 }
 
-impl Scalar<'_> {
-    fn eval(&self, y: f64) -> Option<f64> {
-        let x = natural_to_coords(self.system, y);
-        self.system.residuals_x(&[x]).map(|r| r[0])
-    }
-}
+/// Brent's root (argmin) on a [`Line`].
+struct LineCost<'a, L: Line>(&'a L);
 
-impl CostFunction for Scalar<'_> {
+impl<L: Line> CostFunction for LineCost<'_, L> {
     type Param = f64;
     type Output = f64;
     fn cost(&self, y: &f64) -> Result<f64, argmin::core::Error> {
-        self.eval(*y)
+        self.0
+            .eval(*y)
             .ok_or_else(|| argmin::core::Error::msg("target undefined at trial state"))
     }
 }
 
-/// |f|, for the Brent minimiser that catches tangent roots.
-struct AbsScalar<'a> {
-    inner: Scalar<'a>,
-}
+/// `sign * f`, for Brent's minimiser looking for the extremum of f nearest
+/// zero between two samples (where two close roots or a double root hide).
+struct ExtremumCost<'a, L: Line>(&'a L, f64);
 
-impl CostFunction for AbsScalar<'_> {
+impl<L: Line> CostFunction for ExtremumCost<'_, L> {
     type Param = f64;
     type Output = f64;
     fn cost(&self, y: &f64) -> Result<f64, argmin::core::Error> {
-        Ok(self.inner.eval(*y).map(f64::abs).unwrap_or(f64::MAX))
+        Ok(self.0.eval(*y).map(|f| self.1 * f).unwrap_or(f64::MAX))
     }
 }
 
-fn natural_to_coords(system: &System, y: f64) -> f64 {
-    match system.unknowns[0] {
-        Unknown::Speed => (y / system.v_ref()).ln(),
-        Unknown::FlightPathAngle => (y / FRAC_PI_2).clamp(-1.0 + 1e-16, 1.0 - 1e-16).atanh(),
-        Unknown::Radius => ((y / system.body_radius_m - 1.0).max(1e-300)).ln(),
+/// A root found along a line.
+#[derive(Debug, Clone, Copy)]
+struct LineRoot {
+    y: f64,
+    residual: f64,
+    iterations: u64,
+    /// Found as a touching extremum (no sign change): a double root.
+    double: bool,
+}
+
+/// Residual that a true root can show when evaluated in double precision,
+/// for a residual with slope `slope` (per unit of y) at `y`: the rounding
+/// of y itself (Brent stops within a few units of it) times the slope,
+/// plus the evaluation's own rounding floor [`RESIDUAL_FLOOR`].
+fn acceptance(y: f64, slope: f64) -> f64 {
+    RESIDUAL_FLOOR + 16.0 * f64::EPSILON * (y.abs() * slope.abs()).min(1e6)
+}
+
+/// Central-difference slope of a line's residual at `y` (only for the
+/// acceptance bound; one-sided where one side is undefined).
+fn slope<L: Line>(line: &L, y: f64, f0: f64) -> f64 {
+    let h = 1e-7 * y.abs().max(1e-300);
+    match (line.eval(y + h), line.eval(y - h)) {
+        (Some(a), Some(b)) => (a - b) / (2.0 * h),
+        (Some(a), None) => (a - f0) / h,
+        (None, Some(b)) => (f0 - b) / h,
+        (None, None) => 0.0,
     }
 }
 
-/// The physical domain of the single unknown, in natural units, and whether
-/// to sample it logarithmically.
-fn domain(system: &System) -> (f64, f64, bool) {
-    match system.unknowns[0] {
-        Unknown::Speed => {
-            let r = system.fixed_radius_m.unwrap_or(system.r_ref);
-            let v_esc = (2.0 * system.mu / r).sqrt();
-            (1e-4 * v_esc, 20.0 * v_esc, true)
-        }
-        Unknown::FlightPathAngle => (-FRAC_PI_2 * (1.0 - 1e-9), FRAC_PI_2 * (1.0 - 1e-9), false),
-        Unknown::Radius => (system.body_radius_m, system.r_max, true),
-    }
+/// Accepts `y` as a root when its residual is within what rounding allows
+/// there (a sign change across a jump, e.g. a coast time wrapping at an
+/// apsis, is not a root: its residual stays of order one).
+fn accept<L: Line>(line: &L, y: f64, iterations: u64, double: bool) -> Option<LineRoot> {
+    let f = line.eval(y)?;
+    (f.abs() <= acceptance(y, slope(line, y, f))).then_some(LineRoot {
+        y,
+        residual: f,
+        iterations,
+        double,
+    })
 }
 
-/// From `inside` (where `f` is defined, with value `f_inside`) toward
-/// `outside` (where it is not): finds the edge of definedness by bisection,
-/// then probes back from it at geometrically growing distances (the value at
-/// the very edge is often rounding noise, e.g. a period near escape) for a
-/// point whose residual has the other sign. Returns that point and value.
-fn edge_bracket(f: &Scalar, inside: f64, outside: f64, f_inside: f64) -> Option<(f64, f64)> {
+fn brent_root<L: Line>(line: &L, a: f64, b: f64) -> Option<LineRoot> {
+    let (lo, hi) = if a < b { (a, b) } else { (b, a) };
+    let solver = BrentRoot::new(lo, hi, 1e-300);
+    let res = Executor::new(LineCost(line), solver)
+        .configure(|s| s.param(0.5 * (lo + hi)).max_iters(300))
+        .run()
+        .ok()?;
+    let st = res.state();
+    let y = *st.get_best_param()?;
+    accept(line, y, st.get_iter(), false)
+}
+
+/// From `inside` (where the residual is defined, with value `f_inside`)
+/// toward `outside` (where it is not): finds the edge of definedness by
+/// bisection, then probes back from it at geometrically growing distances
+/// (the value at the very edge is often rounding noise, e.g. a period near
+/// escape) for a point whose residual has the other sign.
+fn edge_bracket<L: Line>(line: &L, inside: f64, outside: f64, f_inside: f64) -> Option<(f64, f64)> {
     let (mut a, mut b) = (inside, outside);
     for _ in 0..80 {
         let m = 0.5 * (a + b);
-        if f.eval(m).is_some() {
+        if line.eval(m).is_some() {
             a = m;
         } else {
             b = m;
@@ -452,113 +503,217 @@ fn edge_bracket(f: &Scalar, inside: f64, outside: f64, f_inside: f64) -> Option<
     let span = edge - inside;
     (1..=14).rev().find_map(|k| {
         let x = edge - span * 10f64.powi(-k);
-        f.eval(x)
+        line.eval(x)
             .filter(|v| v.is_finite() && v.signum() != f_inside.signum())
             .map(|v| (x, v))
     })
 }
 
-/// All roots of a one-unknown, one-target system. Returns (natural value,
-/// iterations, termination) for each.
-fn scalar_roots(system: &System) -> Vec<(f64, u64, String)> {
-    const SAMPLES: usize = 512;
-    let (lo, hi, log) = domain(system);
-    let grid: Vec<f64> = (0..SAMPLES)
-        .map(|k| {
-            let t = k as f64 / (SAMPLES - 1) as f64;
-            if log {
-                lo * (hi / lo).powf(t)
-            } else {
-                lo + (hi - lo) * t
-            }
-        })
-        .collect();
-    let f = Scalar { system };
-    let vals: Vec<Option<f64>> = grid.iter().map(|y| f.eval(*y)).collect();
-    let mut roots: Vec<(f64, u64, String)> = Vec::new();
-    let push = |y: f64, it: u64, term: String, roots: &mut Vec<(f64, u64, String)>| {
-        if let Some(res) = f.eval(y) {
-            if res.abs() <= ROOT_TOLERANCE
-                && !roots
-                    .iter()
-                    .any(|(z, _, _)| (z - y).abs() <= 1e-9 * y.abs().max(1e-9))
-            {
-                roots.push((y, it, term));
-            }
-        }
-    };
-    for k in 0..SAMPLES - 1 {
-        // Where the target stops existing between two samples (e.g. time
-        // to apoapsis as the speed nears escape), bracket against the last
-        // point where it still exists, found by bisection.
-        let (lo_x, hi_x, a, b) = match (vals[k], vals[k + 1]) {
+/// Every root of a line's residual over a sorted grid of parameters.
+///
+/// 1. Each pair of neighbouring samples whose residuals differ in sign is a
+///    bracket for Brent's root; where the residual stops existing between
+///    two samples the bracket is taken against the edge of existence.
+/// 2. Each sampled extremum of the residual (the differences change sign)
+///    that does not cross zero is refined with Brent's minimiser: if the
+///    refined extremum crosses zero, two roots hide between the samples and
+///    each side is bracketed; if it touches zero it is a double root.
+///
+/// So a root is missed only where the residual has two extrema (or a jump
+/// and an extremum) between two neighbouring samples; the grids are made
+/// dense where the residual can bend that fast (see [`grid_for`]).
+/// Candidates are accepted by [`accept`], and merged only when they agree
+/// to 1e-12 relative (a double root with a simple root within 1e-7).
+fn line_roots<L: Line>(line: &L, grid: &[f64]) -> Vec<LineRoot> {
+    let vals: Vec<Option<f64>> = grid.iter().map(|y| line.eval(*y)).collect();
+    let mut found: Vec<LineRoot> = Vec::new();
+    for k in 0..grid.len().saturating_sub(1) {
+        let (lo, hi, a, b) = match (vals[k], vals[k + 1]) {
             (Some(a), Some(b)) => (grid[k], grid[k + 1], a, b),
-            (Some(a), None) => match edge_bracket(&f, grid[k], grid[k + 1], a) {
+            (Some(a), None) => match edge_bracket(line, grid[k], grid[k + 1], a) {
                 Some((x, b)) => (grid[k], x, a, b),
                 None => continue,
             },
-            (None, Some(b)) => match edge_bracket(&f, grid[k + 1], grid[k], b) {
+            (None, Some(b)) => match edge_bracket(line, grid[k + 1], grid[k], b) {
                 Some((x, a)) => (x, grid[k + 1], a, b),
                 None => continue,
             },
             (None, None) => continue,
         };
         if a == 0.0 {
-            push(lo_x, 0, "exact".into(), &mut roots);
-            continue;
-        }
-        if a.signum() != b.signum() {
-            let solver = BrentRoot::new(lo_x, hi_x, 1e-15);
-            if let Ok(res) = Executor::new(Scalar { system }, solver)
-                .configure(|s| s.param(0.5 * (lo_x + hi_x)).max_iters(200))
-                .run()
-            {
-                let st = res.state();
-                if let Some(y) = st.get_best_param() {
-                    push(
-                        *y,
-                        st.get_iter(),
-                        st.get_termination_status().to_string(),
-                        &mut roots,
-                    );
-                }
-            }
+            found.extend(accept(line, lo, 0, false));
+        } else if b != 0.0 && a.signum() != b.signum() {
+            found.extend(brent_root(line, lo, hi));
         }
     }
-    // Tangent roots: sampled local minima of |f| that do not change sign.
-    for k in 1..SAMPLES - 1 {
+    if let (Some(&y), Some(Some(f))) = (grid.last(), vals.last()) {
+        if *f == 0.0 {
+            found.extend(accept(line, y, 0, false));
+        }
+    }
+    for k in 1..grid.len().saturating_sub(1) {
         let (Some(a), Some(b), Some(c)) = (vals[k - 1], vals[k], vals[k + 1]) else {
             continue;
         };
-        if b.abs() < a.abs()
-            && b.abs() < c.abs()
-            && a.signum() == b.signum()
-            && b.signum() == c.signum()
-        {
-            let solver = BrentOpt::new(grid[k - 1], grid[k + 1]).set_tolerance(1e-15, 1e-300);
-            if let Ok(res) = Executor::new(
-                AbsScalar {
-                    inner: Scalar { system },
-                },
-                solver,
-            )
-            .configure(|s| s.param(grid[k]).max_iters(200))
+        let extremum = (b - a) * (c - b) < 0.0;
+        let one_side = a.signum() == b.signum() && b.signum() == c.signum() && b != 0.0;
+        // Only an extremum that bends toward zero can hide roots.
+        if !(extremum && one_side && b.abs() < a.abs().max(c.abs())) {
+            continue;
+        }
+        let sign = b.signum();
+        let solver = BrentOpt::new(grid[k - 1], grid[k + 1]).set_tolerance(1e-15, 1e-300);
+        let Ok(res) = Executor::new(ExtremumCost(line, sign), solver)
+            .configure(|s| s.param(grid[k]).max_iters(300))
             .run()
-            {
-                let st = res.state();
-                if let Some(y) = st.get_best_param() {
-                    push(
-                        *y,
-                        st.get_iter(),
-                        st.get_termination_status().to_string(),
-                        &mut roots,
-                    );
-                }
-            }
+        else {
+            continue;
+        };
+        let st = res.state();
+        let Some(&y) = st.get_best_param() else {
+            continue;
+        };
+        let Some(f) = line.eval(y) else { continue };
+        if (f < 0.0) != (sign < 0.0) {
+            found.extend(brent_root(line, grid[k - 1], y));
+            found.extend(brent_root(line, y, grid[k + 1]));
+        } else if let Some(root) = accept(line, y, st.get_iter(), true) {
+            found.push(root);
         }
     }
-    roots.sort_by(|a, b| a.0.total_cmp(&b.0));
-    roots
+    found.sort_by(|a, b| a.y.total_cmp(&b.y));
+    let mut out: Vec<LineRoot> = Vec::new();
+    for r in found {
+        if let Some(last) = out.last_mut() {
+            let scale = last.y.abs().max(r.y.abs());
+            let near = (r.y - last.y).abs() <= 1e-12 * scale
+                || ((r.double || last.double) && (r.y - last.y).abs() <= 1e-7 * scale);
+            if near {
+                if r.residual.abs() < last.residual.abs() || last.double && !r.double {
+                    *last = LineRoot {
+                        iterations: last.iterations + r.iterations,
+                        ..r
+                    };
+                }
+                continue;
+            }
+        }
+        out.push(r);
+    }
+    out
+}
+
+/// Energy ratios Q = r v^2 / mu at which coast-time residuals bend fastest:
+/// uniform in log(Q / (2 - Q)) over closed orbits (so a coast time, which
+/// grows like (2 - Q)^(-3/2) toward escape, changes by a bounded factor per
+/// step), clustered geometrically on both sides of Q = 1 (near-circular
+/// orbits, where the apsides swing through a small flight-path angle), and
+/// uniform in log(Q - 2) beyond escape.
+fn energy_ratio_grid() -> Vec<f64> {
+    let mut q: Vec<f64> = Vec::new();
+    // log(Q/(2-Q)) from -20 to 36: 2 - Q down to about 1e-15.
+    let steps = 1120;
+    q.extend((0..=steps).map(|k| {
+        let w = -20.0 + 56.0 * k as f64 / steps as f64;
+        2.0 / (1.0 + (-w).exp())
+    }));
+    for k in 0..=112 {
+        let d = 10f64.powf(-1.0 - k as f64 / 8.0);
+        q.push(1.0 - d);
+        q.push(1.0 + d);
+    }
+    q.extend((0..=340).map(|k| 2.0 + 10f64.powf(-15.0 + k as f64 * 0.05)));
+    q.retain(|x| x.is_finite() && *x > 0.0);
+    q.sort_by(f64::total_cmp);
+    q.dedup();
+    q
+}
+
+/// Flight-path angles, rad: uniform over (-90, 90) deg, geometric toward 0
+/// (down to 1e-14 rad: near-circular crowding) and toward +-90 deg (down to
+/// 1e-9 of 90 deg: near-radial).
+fn fpa_grid() -> Vec<f64> {
+    let lim = FRAC_PI_2 * (1.0 - 1e-9);
+    let mut g: Vec<f64> = (0..=2048)
+        .map(|k| -lim + 2.0 * lim * k as f64 / 2048.0)
+        .collect();
+    g.push(0.0);
+    for k in 0..=104 {
+        let d = 10f64.powf(-1.0 - k as f64 / 8.0);
+        g.push(d);
+        g.push(-d);
+    }
+    for k in 0..=64 {
+        let d = 10f64.powf(-1.0 - k as f64 / 8.0);
+        if d < FRAC_PI_2 - lim {
+            break;
+        }
+        g.push(FRAC_PI_2 - d);
+        g.push(-(FRAC_PI_2 - d));
+    }
+    g.retain(|x| x.abs() <= lim);
+    g.sort_by(f64::total_cmp);
+    g.dedup();
+    g
+}
+
+/// The sample grid for the single free quantity of a one-unknown system,
+/// in its natural unit (m/s, rad or m).
+fn grid_for(system: &System) -> Vec<f64> {
+    let mu = system.mu;
+    let mut g: Vec<f64> = match system.unknowns[0] {
+        Unknown::Speed => {
+            let r = system.fixed_radius_m.unwrap_or(system.r_ref);
+            let v_esc = (2.0 * mu / r).sqrt();
+            let (lo, hi) = (1e-4 * v_esc, 20.0 * v_esc);
+            energy_ratio_grid()
+                .into_iter()
+                .map(|q| (q * mu / r).sqrt())
+                .filter(|v| (lo..=hi).contains(v))
+                .collect()
+        }
+        Unknown::FlightPathAngle => fpa_grid(),
+        Unknown::Radius => {
+            let v = system.fixed_speed_m_s.unwrap_or(f64::NAN);
+            let (lo, hi) = (system.body_radius_m, system.radius_domain_max_m());
+            let mut g: Vec<f64> = energy_ratio_grid()
+                .into_iter()
+                .map(|q| q * mu / (v * v))
+                .filter(|r| (lo..=hi).contains(r))
+                .collect();
+            g.extend((0..=800).map(|k| lo * (hi / lo).powf(k as f64 / 800.0)));
+            g
+        }
+    };
+    g.retain(|x| x.is_finite());
+    g.sort_by(f64::total_cmp);
+    g.dedup();
+    g
+}
+
+/// The single free quantity of a one-unknown system, as a line.
+struct FreeLine<'a> {
+    system: &'a System,
+    target: usize,
+}
+
+impl Line for FreeLine<'_> {
+    fn state(&self, y: f64) -> Option<(f64, f64, f64)> {
+        let s = self.system;
+        let mut r = s.fixed_radius_m.unwrap_or(f64::NAN);
+        let mut v = s.fixed_speed_m_s.unwrap_or(f64::NAN);
+        let mut gamma = s.fixed_fpa_rad.unwrap_or(f64::NAN);
+        match s.unknowns.first()? {
+            Unknown::Speed => v = y,
+            Unknown::FlightPathAngle => gamma = y,
+            Unknown::Radius => r = y,
+        }
+        (r >= s.body_radius_m).then_some((r, v, gamma))
+    }
+    fn eval(&self, y: f64) -> Option<f64> {
+        let (r, v, gamma) = self.state(y)?;
+        self.system.residual_of(self.target, r, v, gamma)
+    }
 }
 
 /// One sheet of the one-parameter family of burnout states that meet an
@@ -573,104 +728,55 @@ struct Sheet<'a> {
     k: usize,
 }
 
-impl Sheet<'_> {
-    fn eval(&self, gamma: f64) -> Option<f64> {
+impl Line for Sheet<'_> {
+    fn state(&self, gamma: f64) -> Option<(f64, f64, f64)> {
         let speeds =
             crate::invert::speed_for_target(self.system.mu, self.radius_m, gamma, self.element)
                 .ok()?;
         let v = speeds.get(self.k)?.speed_m_s;
-        self.system
-            .residuals_at(self.radius_m, v, gamma)
-            .map(|r| r[self.other])
+        Some((self.radius_m, v, gamma))
     }
-    fn speed(&self, gamma: f64) -> Option<f64> {
-        crate::invert::speed_for_target(self.system.mu, self.radius_m, gamma, self.element)
-            .ok()?
-            .get(self.k)
-            .map(|st| st.speed_m_s)
+    fn eval(&self, gamma: f64) -> Option<f64> {
+        let (r, v, gamma) = self.state(gamma)?;
+        self.system.residual_of(self.other, r, v, gamma)
     }
 }
 
-impl CostFunction for Sheet<'_> {
-    type Param = f64;
-    type Output = f64;
-    fn cost(&self, gamma: &f64) -> Result<f64, argmin::core::Error> {
-        self.eval(*gamma)
-            .ok_or_else(|| argmin::core::Error::msg("off the sheet"))
-    }
+/// Roots of a line as burnout states with their iteration counts.
+fn roots_as_states<L: Line>(line: &L, grid: &[f64]) -> (Vec<(f64, f64, f64)>, u64) {
+    let roots = line_roots(line, grid);
+    let iterations = roots.iter().map(|r| r.iterations).sum();
+    (
+        roots.iter().filter_map(|r| line.state(r.y)).collect(),
+        iterations,
+    )
 }
 
-/// With the burnout radius fixed, speed and angle free, and two targets of
-/// which one is an orbit element: every root, by bracketing the other
-/// target's residual over the flight-path angle (1024 samples from -90 to
-/// 90 deg) on each sheet of states that meet the element exactly, refined
-/// with argmin's Brent root. Returns (r, v, fpa) of each root.
-fn sheet_roots(system: &System) -> (Vec<(f64, f64, f64)>, u64) {
+/// With the burnout radius fixed, speed and angle free, an orbit-element
+/// target `element` and another target `other`: every root, bracketed over
+/// the flight-path angle on each sheet of states that meet the element
+/// exactly.
+fn sheet_roots(system: &System, element: usize, other: usize) -> (Vec<(f64, f64, f64)>, u64) {
     let Some(r) = system.fixed_radius_m else {
         return (Vec::new(), 0);
     };
-    if system.unknowns != [Unknown::Speed, Unknown::FlightPathAngle] || system.targets.len() != 2 {
-        return (Vec::new(), 0);
-    }
-    let Some(e_idx) = system
-        .targets
-        .iter()
-        .position(|t| t.quantity.is_orbit_element())
-    else {
-        return (Vec::new(), 0);
-    };
-    let mut iterations = 0;
-    let other = 1 - e_idx;
-    const SAMPLES: usize = 1024;
-    let lim = FRAC_PI_2 * (1.0 - 1e-7);
-    let grid: Vec<f64> = (0..SAMPLES)
-        .map(|k| -lim + 2.0 * lim * k as f64 / (SAMPLES - 1) as f64)
-        .collect();
+    let grid = fpa_grid();
     let mut out = Vec::new();
+    let mut iterations = 0;
     for k in 0..2 {
         let sheet = Sheet {
             system,
             radius_m: r,
-            element: &system.targets[e_idx],
+            element: &system.targets[element],
             other,
             k,
         };
-        let vals: Vec<Option<f64>> = grid.iter().map(|g| sheet.eval(*g)).collect();
-        for j in 0..SAMPLES - 1 {
-            let (Some(a), Some(b)) = (vals[j], vals[j + 1]) else {
-                continue;
-            };
-            if a.signum() == b.signum() && a != 0.0 {
-                continue;
-            }
-            let solver = BrentRoot::new(grid[j], grid[j + 1], 1e-15);
-            let sheet_j = Sheet {
-                system,
-                radius_m: r,
-                element: &system.targets[e_idx],
-                other,
-                k,
-            };
-            if let Ok(res) = Executor::new(sheet_j, solver)
-                .configure(|st| st.param(0.5 * (grid[j] + grid[j + 1])).max_iters(200))
-                .run()
-            {
-                iterations += res.state().get_iter();
-                if let Some(g) = res.state().get_best_param().copied() {
-                    if let (Some(v), Some(f)) = (sheet.speed(g), sheet.eval(g)) {
-                        // A sign change across a jump (e.g. time to apoapsis
-                        // wrapping at apoapsis) is not a root.
-                        if f.abs() <= 1e-9 {
-                            out.push((r, v, g));
-                        }
-                    }
-                }
-            }
-        }
+        let (states, it) = roots_as_states(&sheet, &grid);
+        out.extend(states);
+        iterations += it;
     }
     (out, iterations)
 }
-
 /// Starting points: closed-form states where some pair of orbit-element
 /// targets has one, then a grid over the domain.
 fn seeds(system: &System) -> Vec<Vec<f64>> {
@@ -718,12 +824,156 @@ fn seeds(system: &System) -> Vec<Vec<f64>> {
     out
 }
 
+/// How the target quantities depend on the burnout state, for telling a
+/// finite set of solutions from a continuous family.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Dependence {
+    /// Orbital energy alone (sma, period, C3, specific energy).
+    Energy,
+    /// Angular momentum alone (semi-latus rectum).
+    AngularMomentum,
+    /// Size and shape together (periapsis, apoapsis, eccentricity).
+    Shape,
+    /// Where burnout lies on the orbit (coast times and angles).
+    Placement,
+}
+
+fn dependence(q: TargetQuantity) -> Dependence {
+    use TargetQuantity as Q;
+    match q {
+        Q::Sma | Q::Period | Q::C3 | Q::SpecificEnergy => Dependence::Energy,
+        Q::SemiLatusRectum => Dependence::AngularMomentum,
+        Q::PeriapsisRadius | Q::ApoapsisRadius | Q::Ecc => Dependence::Shape,
+        Q::TimeToApoapsis | Q::TimeToPeriapsis | Q::AngleToApoapsis => Dependence::Placement,
+    }
+}
+
+/// Refuses target sets whose solutions, where they exist, form a continuous
+/// family: the targets impose fewer independent conditions than there are
+/// free burnout quantities. Orbit elements impose at most two conditions
+/// (energy and angular momentum); those that depend on the energy alone
+/// impose one between them, as do those on the angular momentum alone; the
+/// energy does not depend on the flight-path angle at all.
+fn check_not_a_family(system: &System) -> Result<(), Error> {
+    let n = system.dim();
+    let deps: Vec<Dependence> = system
+        .targets
+        .iter()
+        .map(|t| dependence(t.quantity))
+        .collect();
+    let has = |d: Dependence| deps.contains(&d);
+    let shapes = {
+        let mut q: Vec<TargetQuantity> = system
+            .targets
+            .iter()
+            .filter(|t| dependence(t.quantity) == Dependence::Shape)
+            .map(|t| t.quantity)
+            .collect();
+        q.dedup();
+        q.len()
+    };
+    let classes = [Dependence::Energy, Dependence::AngularMomentum]
+        .iter()
+        .filter(|d| has(**d))
+        .count();
+    let element_rank = (shapes + classes).min(2);
+    let mut placement: Vec<TargetQuantity> = system
+        .targets
+        .iter()
+        .filter(|t| dependence(t.quantity) == Dependence::Placement)
+        .map(|t| t.quantity)
+        .collect();
+    placement.sort_by_key(|q| *q as u8);
+    placement.dedup();
+    let mut rank = element_rank + placement.len();
+    // Only the flight-path angle free, energy targets only: they cannot
+    // depend on it.
+    if system.unknowns == [Unknown::FlightPathAngle]
+        && deps.iter().all(|d| *d == Dependence::Energy)
+    {
+        rank = 0;
+    }
+    if rank >= n {
+        return Ok(());
+    }
+    let flags: Vec<&str> = system.targets.iter().map(|t| t.flag).collect();
+    let free: Vec<&str> = system.unknowns.iter().map(|u| u.name()).collect();
+    let why = if deps.iter().all(|d| *d == Dependence::Energy) {
+        "fix only the orbital energy"
+    } else if deps.iter().all(|d| *d == Dependence::AngularMomentum) {
+        "fix only the angular momentum"
+    } else {
+        "impose fewer independent conditions than there are free quantities"
+    };
+    Err(Error::Usage(format!(
+        "{} {why}: with {} free ({}) the solutions form a continuous family, not a set of burnout states; add a target that fixes {} or fix one of the free quantities",
+        flags.join(", "),
+        free.len(),
+        free.join(", "),
+        if has(Dependence::Energy) && !has(Dependence::Shape) {
+            "the shape (e.g. --ecc or --periapsis-alt)"
+        } else {
+            "another condition (e.g. an apsis or a coast time)"
+        }
+    )))
+}
+
+/// A square subset of the targets that a complete method solves: its roots
+/// are then checked against the remaining targets.
+enum Square {
+    /// One free quantity, one target (index): bracketed along the line.
+    Line(usize),
+    /// Radius fixed, two orbit elements with a closed-form conic.
+    Pair(usize, usize),
+    /// Radius fixed, an orbit element (first) and another target (second):
+    /// bracketed along the element's sheets.
+    Sheet(usize, usize),
+}
+
+fn square_subset(system: &System) -> Option<Square> {
+    let t = &system.targets;
+    let m = t.len();
+    match system.unknowns.as_slice() {
+        [u] => {
+            // A target the free quantity moves: the energy does not depend
+            // on the flight-path angle. Orbit elements first (smooth), then
+            // coast quantities.
+            let usable = |i: &usize| {
+                *u != Unknown::FlightPathAngle || dependence(t[*i].quantity) != Dependence::Energy
+            };
+            (0..m)
+                .filter(usable)
+                .find(|i| t[*i].quantity.is_orbit_element())
+                .or_else(|| (0..m).find(usable))
+                .map(Square::Line)
+        }
+        [Unknown::Speed, Unknown::FlightPathAngle] if system.fixed_radius_m.is_some() => {
+            let elements: Vec<usize> = (0..m)
+                .filter(|i| t[*i].quantity.is_orbit_element())
+                .collect();
+            for (a, &i) in elements.iter().enumerate() {
+                for &j in &elements[a + 1..] {
+                    if conic_from_pair(system.mu, &t[i], &t[j]).is_ok() {
+                        return Some(Square::Pair(i, j));
+                    }
+                }
+            }
+            let e = *elements.first()?;
+            (0..m)
+                .find(|j| *j != e && !t[*j].quantity.is_orbit_element())
+                .map(|j| Square::Sheet(e, j))
+        }
+        _ => None,
+    }
+}
+
 /// Solves a problem the closed forms do not cover.
 ///
 /// # Errors
-/// [`Error::Usage`] for under-determined sets; [`Error::Infeasible`] when
-/// over-specified targets conflict (with each residual in its own unit);
-/// [`Error::NoConvergence`] when no start converges.
+/// [`Error::Usage`] for under-determined sets and sets whose solutions form
+/// a continuous family; [`Error::Infeasible`] when no state meets the
+/// targets, or when over-specified targets conflict (with each residual in
+/// its own unit); [`Error::NoConvergence`] when no start converges.
 pub fn solve_numeric(problem: &Problem) -> Result<Solved, Error> {
     let system = System::new(problem)?;
     solve_system(problem, &system, None)
@@ -737,6 +987,45 @@ pub fn solve_numeric(problem: &Problem) -> Result<Solved, Error> {
 pub fn solve_from(problem: &Problem, start: (f64, f64, f64)) -> Result<Solved, Error> {
     let system = System::new(problem)?;
     solve_system(problem, &system, Some(start))
+}
+
+/// Roots of a square subset as states (r, v, fpa), the method's name, and
+/// the iterations taken.
+type SquareRoots = (Vec<(f64, f64, f64)>, &'static str, u64);
+
+/// Roots of a square subset.
+fn solve_square(
+    system: &System,
+    square: &Square,
+) -> Result<SquareRoots, Error> {
+    match *square {
+        Square::Line(i) => {
+            let line = FreeLine { system, target: i };
+            let (states, it) = roots_as_states(&line, &grid_for(system));
+            Ok((states, "brent-root (argmin), bracketed over the domain", it))
+        }
+        Square::Pair(i, j) => {
+            let r = system.fixed_radius_m.unwrap_or(f64::NAN);
+            let conic = conic_from_pair(system.mu, &system.targets[i], &system.targets[j])?;
+            let states = burnout_for_conic(system.mu, &conic, r)?;
+            Ok((
+                states
+                    .iter()
+                    .map(|s| (s.radius_m, s.speed_m_s, s.flight_path_angle_rad))
+                    .collect(),
+                "closed-form pair",
+                0,
+            ))
+        }
+        Square::Sheet(e, o) => {
+            let (states, it) = sheet_roots(system, e, o);
+            Ok((
+                states,
+                "brent-root (argmin) bracketed over the flight-path angle along the states meeting the orbit-element target",
+                it,
+            ))
+        }
+    }
 }
 
 fn solve_system(
@@ -759,48 +1048,86 @@ fn solve_system(
             free.join(", ")
         )));
     }
-    let mu = system.mu;
-    // One unknown, one target, no forced start: bracket the whole domain.
-    if n == 1 && m == 1 && start.is_none() {
-        let roots = scalar_roots(system);
-        if roots.is_empty() {
-            return Err(no_solution(problem, system));
+    check_not_a_family(system)?;
+    if start.is_none() {
+        if let Some(square) = square_subset(system) {
+            let (candidates, method, iterations) = solve_square(system, &square)?;
+            if candidates.is_empty() {
+                return Err(no_solution(problem, system));
+            }
+            return checked_roots(problem, system, candidates, method, iterations);
         }
-        let iterations = roots.iter().map(|r| r.1).sum();
-        let termination = roots[0].2.clone();
-        let states: Vec<BurnoutState> = roots
-            .iter()
-            .filter_map(|(y, _, _)| {
-                let (r, v, gamma) = system.state_of(&[natural_to_coords(system, *y)]);
-                forward_state(mu, r, v, gamma).ok()
-            })
-            .collect();
-        return Ok(report(
-            problem,
-            system,
-            states,
-            "brent-root (argmin), bracketed over the domain",
-            iterations,
-            termination,
-        ));
     }
-    let mut bracketed = false;
-    let mut bracket_iterations = 0;
+    least_squares(problem, system, start)
+}
+
+/// Keeps the roots of a square subset that meet every target (the others to
+/// [`AGREEMENT_TOLERANCE`]); when none does, the targets conflict.
+fn checked_roots(
+    problem: &Problem,
+    system: &System,
+    candidates: Vec<(f64, f64, f64)>,
+    method: &str,
+    iterations: u64,
+) -> Result<Solved, Error> {
+    let over = system.targets.len() > system.dim();
+    let scored: Vec<((f64, f64, f64), f64)> = candidates
+        .into_iter()
+        .map(|(r, v, g)| {
+            let worst = system
+                .residuals_at(r, v, g)
+                .map(|res| max_abs(&res))
+                .unwrap_or(f64::INFINITY);
+            ((r, v, g), worst)
+        })
+        .collect();
+    let mut states: Vec<BurnoutState> = Vec::new();
+    for &((r, v, g), worst) in &scored {
+        if over && (worst.is_nan() || worst > AGREEMENT_TOLERANCE) {
+            continue;
+        }
+        crate::invert::check_speed(v)?;
+        let st = forward_state(system.mu, r, v, g)?;
+        states.push(st);
+    }
+    if states.is_empty() {
+        let best = scored
+            .iter()
+            .min_by(|a, b| a.1.total_cmp(&b.1))
+            .map(|x| x.0)
+            .unwrap_or((f64::NAN, f64::NAN, f64::NAN));
+        return Err(conflict(problem, system, best.0, best.1, best.2));
+    }
+    let method = if over {
+        format!("{method}, checked against the remaining targets")
+    } else {
+        method.to_string()
+    };
+    Ok(report(
+        problem,
+        system,
+        states,
+        &method,
+        iterations,
+        "every bracketed root refined to its rounding limit".into(),
+        false,
+    ))
+}
+
+/// Trust-region least squares from closed-form and grid starts: for systems
+/// no complete method covers (roots from starting points are not proven
+/// complete, and each answer says so).
+fn least_squares(
+    problem: &Problem,
+    system: &System,
+    start: Option<(f64, f64, f64)>,
+) -> Result<Solved, Error> {
+    let n = system.dim();
+    let m = system.targets.len();
+    let mu = system.mu;
     let starts: Vec<Vec<f64>> = match start {
         Some((r, v, gamma)) => vec![system.coords_of(r, v, gamma)],
-        None => {
-            // Bracketed roots first (complete along each sheet), then the
-            // closed-form and grid starts.
-            let (roots, iters) = sheet_roots(system);
-            bracket_iterations = iters;
-            let mut v: Vec<Vec<f64>> = roots
-                .into_iter()
-                .map(|(r, v, g)| system.coords_of(r, v, g))
-                .collect();
-            bracketed = !v.is_empty();
-            v.extend(seeds(system));
-            v
-        }
+        None => seeds(system),
     };
     let mut runs: Vec<Run> = starts
         .into_iter()
@@ -843,15 +1170,17 @@ fn solve_system(
             termination: best.termination.clone(),
         });
     }
-    let iterations = best.iterations + bracket_iterations;
-    let termination = best.termination.clone();
+    let iterations = best.iterations;
+    // Acceptance is by the residuals: a run that met them at argmin's
+    // iteration limit has converged, and says so.
+    let termination = format!("residuals within {tol:e} ({})", best.termination);
     let mut states: Vec<BurnoutState> = Vec::new();
     for run in runs.iter().filter(|r| max_abs(&r.residuals) <= tol) {
         let (r, v, gamma) = system.state_of(&run.x);
         let dup = states.iter().any(|s| {
-            (s.speed_m_s - v).abs() <= 1e-7 * v
-                && (s.flight_path_angle_rad - gamma).abs() <= 1e-7
-                && (s.radius_m - r).abs() <= 1e-7 * r
+            (s.speed_m_s - v).abs() <= 1e-9 * v
+                && (s.flight_path_angle_rad - gamma).abs() <= 1e-9
+                && (s.radius_m - r).abs() <= 1e-9 * r
         });
         if !dup {
             if let (Ok(_), Ok(st)) = (
@@ -864,8 +1193,6 @@ fn solve_system(
     }
     let method = if m > n {
         "trust-region least squares, gauss-newton hessian (argmin)"
-    } else if bracketed {
-        "brent-root bracketed over the flight-path angle, trust-region polish (argmin)"
     } else {
         "trust-region, gauss-newton hessian (argmin)"
     };
@@ -876,9 +1203,9 @@ fn solve_system(
         method,
         iterations,
         termination,
+        start.is_none(),
     ))
 }
-
 fn report(
     problem: &Problem,
     system: &System,
@@ -886,12 +1213,13 @@ fn report(
     method: &str,
     iterations: u64,
     termination: String,
+    from_starting_points: bool,
 ) -> Solved {
     let residuals = states
         .first()
         .map(|st| crate::problem::target_residuals(system.mu, &system.targets, st))
         .unwrap_or_default();
-    finish(
+    let mut solved = finish(
         problem,
         states,
         SolverReport {
@@ -900,7 +1228,15 @@ fn report(
             termination,
             residuals,
         },
-    )
+    );
+    if from_starting_points {
+        for s in &mut solved.solutions {
+            s.warnings.push(Warning::SearchNotExhaustive {
+                starts: seeds(system).len(),
+            });
+        }
+    }
+    solved
 }
 
 fn describe_residuals(system: &System, st: &BurnoutState) -> String {
@@ -976,6 +1312,7 @@ fn check_fixed_state(problem: &Problem, system: &System) -> Result<Solved, Error
         "closed-form check of a fixed burnout state",
         0,
         "targets agree".into(),
+        false,
     ))
 }
 
@@ -1035,8 +1372,10 @@ mod tests {
         let r = re + 300e3;
         let g = 2f64.to_radians();
         let v = 8_500.0;
-        let (conic, nu) = forward(earth().mu_m3_s2, r, v, g).unwrap();
-        let tof = time_to_apoapsis_s(earth().mu_m3_s2, &conic, nu).unwrap();
+        let tof = coast_times(earth().mu_m3_s2, r, v, g)
+            .unwrap()
+            .to_apoapsis_s
+            .unwrap();
         let p = problem(
             Some(r),
             None,

@@ -160,6 +160,12 @@ impl Conic {
         }
     }
 
+    /// Inverse semi-major axis 1/a, 1/m (0 for a parabola, negative for a
+    /// hyperbola).
+    pub fn inv_sma_per_m(&self) -> f64 {
+        self.inv_sma_per_m
+    }
+
     /// Semi-latus rectum p, m: 2 rp ra / (rp + ra) for ellipses, rp (1 + e) otherwise.
     pub fn semi_latus_rectum_m(&self) -> f64 {
         match self.apoapsis_radius_m {
@@ -275,8 +281,13 @@ pub fn forward(
             crate::error::g(flight_path_angle_rad.to_degrees())
         )));
     }
-    let q = radius_m * speed_m_s * speed_m_s / mu_m3_s2;
-    let ecos = q * c * c - 1.0;
+    let EnergyRatio {
+        q,
+        q_minus_1,
+        two_minus_q,
+    } = EnergyRatio::new(mu_m3_s2, radius_m, speed_m_s);
+    // e cos nu = Q cos^2 - 1 = (Q - 1) - Q sin^2: no cancellation near circular.
+    let ecos = q_minus_1 - q * s * s;
     let esin = q * s * c;
     let ecc = ecos.hypot(esin);
     let p = radius_m * q * c * c;
@@ -284,9 +295,9 @@ pub fn forward(
     let nu = esin.atan2(ecos).rem_euclid(2.0 * PI);
     // The energy sign (Q < 2), not the rounded eccentricity, decides closed
     // versus open: near-radial ellipses have e within rounding of 1.
-    let conic = if q < 2.0 {
+    let conic = if two_minus_q > 0.0 {
         // ra = 2a - rp with a = r / (2 - Q): no 1 - e cancellation.
-        let ra = 2.0 * radius_m / (2.0 - q) - rp;
+        let ra = 2.0 * radius_m / two_minus_q - rp;
         // A closed orbit keeps e below 1 even when rounding says otherwise
         // (a vertical shot is the limit of an ellipse with rp -> 0).
         let ecc = if ecc < 1.0 {
@@ -298,15 +309,15 @@ pub fn forward(
             periapsis_radius_m: rp,
             ecc,
             apoapsis_radius_m: Some(ra),
-            inv_sma_per_m: (2.0 - q) / radius_m,
+            inv_sma_per_m: two_minus_q / radius_m,
         }
     } else {
         // 1/a from the energy, (2 - Q)/r: C3 and sma stay exact where
         // e - 1 cancels (near-radial and near-parabolic hyperbolas).
-        let inv_a = (2.0 - q) / radius_m;
+        let inv_a = two_minus_q / radius_m;
         Conic {
             periapsis_radius_m: rp,
-            ecc: if exactly(q, 2.0) {
+            ecc: if exactly(two_minus_q, 0.0) {
                 1.0
             } else {
                 ecc.max(1.0 + f64::EPSILON)
@@ -316,6 +327,55 @@ pub fn forward(
         }
     };
     Ok((conic, nu))
+}
+
+/// The energy ratio Q = r v^2 / mu of a burnout state, with Q - 1 and 2 - Q
+/// carried to about twice double precision.
+///
+/// Q is formed as an unevaluated sum hi + lo with error-free products
+/// (fused multiply-add), so Q - 1 (near-circular speed) and 2 - Q (near
+/// escape) keep their relative digits down to about 1e-30 of Q instead of
+/// the 1e-16 / |2 - Q| a plain product leaves: 1/a, C3 and the coast times
+/// of near-parabolic orbits depend on 2 - Q alone.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct EnergyRatio {
+    /// Q = r v^2 / mu (rounded to double).
+    pub q: f64,
+    /// Q - 1, accurate to a few units of 1e-16 |Q - 1| + 1e-30 Q.
+    pub q_minus_1: f64,
+    /// 2 - Q (= r / a), accurate likewise; 0 exactly only on a parabola
+    /// to that precision.
+    pub two_minus_q: f64,
+}
+
+impl EnergyRatio {
+    /// The energy ratio of a state at `radius_m` moving at `speed_m_s`.
+    pub fn new(mu_m3_s2: f64, radius_m: f64, speed_m_s: f64) -> EnergyRatio {
+        let v = speed_m_s;
+        // v^2 = vv + vv_lo exactly.
+        let vv = v * v;
+        let vv_lo = v.mul_add(v, -vv);
+        // r v^2 = rvv + rvv_lo (to about 2^-104).
+        let rvv = radius_m * vv;
+        let rvv_lo = radius_m.mul_add(vv, -rvv) + radius_m * vv_lo;
+        // Q = (rvv + rvv_lo) / mu = q + q_lo.
+        let q = rvv / mu_m3_s2;
+        let rem = (-q).mul_add(mu_m3_s2, rvv) + rvv_lo;
+        let q_lo = rem / mu_m3_s2;
+        if !(q.is_finite() && q_lo.is_finite()) {
+            return EnergyRatio {
+                q,
+                q_minus_1: q - 1.0,
+                two_minus_q: 2.0 - q,
+            };
+        }
+        // q - 1 and 2 - q are exact where they are small (Sterbenz).
+        EnergyRatio {
+            q,
+            q_minus_1: (q - 1.0) + q_lo,
+            two_minus_q: (2.0 - q) - q_lo,
+        }
+    }
 }
 
 /// Validates a flight-path angle (rad) in [-pi/2, pi/2].

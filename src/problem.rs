@@ -39,6 +39,9 @@ pub struct Solution {
     pub warnings: Vec<Warning>,
     /// Launch-site geometry, when a site was given.
     pub site: Option<crate::site::SiteState>,
+    /// Achieved minus targeted value of each target at this solution, keyed
+    /// as [`TargetQuantity::key`] (SI; the angle to apoapsis in degrees).
+    pub residuals: Vec<(String, f64)>,
 }
 
 /// How a problem was answered.
@@ -69,6 +72,17 @@ pub struct Solved {
 }
 
 impl Solved {
+    /// The burnout radius shared by every solution, m; `None` when the
+    /// solutions lie at different radii (the radius was solved for and has
+    /// several roots).
+    pub fn shared_burnout_radius_m(&self) -> Option<f64> {
+        let r = self.burnout_radius_m;
+        self.solutions
+            .iter()
+            .all(|s| (s.state.radius_m - r).abs() <= 1e-12 * r)
+            .then_some(r)
+    }
+
     /// All warnings of all solutions, in order, without repeats.
     pub fn warnings(&self) -> Vec<String> {
         let mut out: Vec<String> = Vec::new();
@@ -84,6 +98,15 @@ impl Solved {
     }
 }
 
+fn coast(mu_m3_s2: f64, state: &BurnoutState) -> Option<crate::kepler::CoastTimes> {
+    crate::kepler::coast_times(
+        mu_m3_s2,
+        state.radius_m,
+        state.speed_m_s,
+        state.flight_path_angle_rad,
+    )
+}
+
 /// Value of a target quantity achieved by a state, SI.
 pub fn achieved(mu_m3_s2: f64, state: &BurnoutState, q: TargetQuantity) -> Option<f64> {
     let c = &state.conic;
@@ -96,12 +119,8 @@ pub fn achieved(mu_m3_s2: f64, state: &BurnoutState, q: TargetQuantity) -> Optio
         TargetQuantity::C3 => Some(c.c3_m2_s2(mu_m3_s2)),
         TargetQuantity::SemiLatusRectum => Some(c.semi_latus_rectum_m()),
         TargetQuantity::SpecificEnergy => Some(c.specific_energy_j_kg(mu_m3_s2)),
-        TargetQuantity::TimeToApoapsis => {
-            crate::kepler::time_to_apoapsis_s(mu_m3_s2, c, state.true_anomaly_rad)
-        }
-        TargetQuantity::TimeToPeriapsis => {
-            crate::kepler::time_to_periapsis_s(mu_m3_s2, c, state.true_anomaly_rad)
-        }
+        TargetQuantity::TimeToApoapsis => coast(mu_m3_s2, state)?.to_apoapsis_s,
+        TargetQuantity::TimeToPeriapsis => coast(mu_m3_s2, state)?.to_periapsis_s,
         TargetQuantity::AngleToApoapsis => c.apoapsis_radius_m().map(|_| {
             (std::f64::consts::PI - state.true_anomaly_rad).rem_euclid(2.0 * std::f64::consts::PI)
         }),
@@ -130,9 +149,12 @@ pub fn solve(problem: &Problem) -> Result<Solved, Error> {
         crate::orbit::check_fpa(fpa)?;
     }
     let Some(r) = problem.burnout_radius_m else {
-        if problem.speed_m_s.is_none() || problem.flight_path_angle_rad.is_none() {
+        if let Some(solved) = free_radius_closed_form(problem)? {
+            return Ok(solved);
+        }
+        if problem.speed_m_s.is_none() && problem.flight_path_angle_rad.is_none() {
             return Err(Error::Usage(
-                "missing burnout point: give --burnout-alt or --burnout-radius (or --speed and --fpa with a target to solve for the burnout altitude)".into(),
+                "missing burnout point: give --burnout-alt or --burnout-radius (or --fpa or --speed with target quantities to solve for the burnout altitude)".into(),
             ));
         }
         if problem.targets.is_empty() {
@@ -178,6 +200,46 @@ pub fn solve(problem: &Problem) -> Result<Solved, Error> {
         _ => return crate::numeric::solve_numeric(problem),
     };
     Ok(finish(problem, states, closed_form_report(problem, None)))
+}
+
+/// Burnout radius free, two orbit-element targets and one of speed or
+/// flight-path angle: the target conic is known, and the radius follows in
+/// closed form (vis-viva for a speed, the conic's own angle for a
+/// flight-path angle). `Ok(None)` when the problem is not of that kind.
+fn free_radius_closed_form(problem: &Problem) -> Result<Option<Solved>, Error> {
+    let mu = problem.body.mu_m3_s2;
+    let [a, b] = problem.targets.as_slice() else {
+        return Ok(None);
+    };
+    if !(a.quantity.is_orbit_element() && b.quantity.is_orbit_element()) {
+        return Ok(None);
+    }
+    let states = match (problem.speed_m_s, problem.flight_path_angle_rad) {
+        (Some(v), None) => {
+            crate::invert::burnout_for_conic_at_speed(mu, &conic_from_pair(mu, a, b)?, v)?
+        }
+        (None, Some(fpa)) => {
+            crate::invert::burnout_for_conic_at_fpa(mu, &conic_from_pair(mu, a, b)?, fpa)?
+        }
+        _ => return Ok(None),
+    };
+    let surface = problem.body.radius_m;
+    let lowest = states.first().map(|s| s.radius_m);
+    let states: Vec<BurnoutState> = states
+        .into_iter()
+        .filter(|s| s.radius_m >= surface)
+        .collect();
+    if states.is_empty() {
+        return Err(Error::BelowSurface {
+            burnout_radius_m: lowest.unwrap_or(f64::NAN),
+            surface_radius_m: surface,
+        });
+    }
+    Ok(Some(finish(
+        problem,
+        states,
+        closed_form_report(problem, None),
+    )))
 }
 
 /// Achieved minus targeted value of each target at a state, keyed as
@@ -240,6 +302,7 @@ pub(crate) fn finish(
             sensitivity: crate::sensitivity::partials_for_state(body.mu_m3_s2, &state),
             warnings: check_state(body, &state, min_alt),
             site: None,
+            residuals: target_residuals(body.mu_m3_s2, &problem.targets, &state),
             state,
         })
         .collect();

@@ -191,7 +191,9 @@ pub fn column_name(key: &str, kind: Kind) -> String {
     } else {
         format!("{base}_{unit}")
     };
-    let taken = RESULT_COLUMNS.contains(&name.as_str()) || sensitivity_columns().contains(&name);
+    let taken = RESULT_COLUMNS.contains(&name.as_str())
+        || SITE_COLUMNS.contains(&name.as_str())
+        || sensitivity_columns().contains(&name);
     if taken {
         format!("given_{name}")
     } else {

@@ -7,7 +7,7 @@
 use approx::assert_relative_eq;
 use burnout::body::Body;
 use burnout::invert::burnout_for_conic;
-use burnout::kepler::time_to_apoapsis_s;
+use burnout::kepler::coast_times;
 use burnout::orbit::Conic;
 
 type State = [f64; 4]; // planar: x, y, vx, vy
@@ -234,7 +234,10 @@ fn integrated_time_to_apoapsis_matches_keplers_equation() {
     let mu = body.mu_m3_s2;
     let conic = Conic::from_apsides(body.radius_m + 200e3, body.radius_m + 35_786e3).unwrap();
     for st in burnout_for_conic(mu, &conic, body.radius_m + 1_500e3).unwrap() {
-        let tof = time_to_apoapsis_s(mu, &conic, st.true_anomaly_rad).unwrap();
+        let tof = coast_times(mu, st.radius_m, st.speed_m_s, st.flight_path_angle_rad)
+            .unwrap()
+            .to_apoapsis_s
+            .unwrap();
         let y0 = burnout_state(st.radius_m, st.speed_m_s, st.flight_path_angle_rad);
         let (y, _) = propagate(mu, y0, tof, 1e-13);
         let ra = conic.apoapsis_radius_m().unwrap();
@@ -296,7 +299,6 @@ fn integrated_time_to_periapsis_matches_keplers_equation_elliptic_and_hyperbolic
     // Descending states approach periapsis: propagate for the time Kepler's
     // equation (elliptic and hyperbolic forms) predicts and check that the
     // state is at periapsis.
-    use burnout::kepler::time_to_periapsis_s;
     let body = Body::from_name("earth").unwrap();
     let mu = body.mu_m3_s2;
     let rp = body.radius_m + 300e3;
@@ -310,7 +312,10 @@ fn integrated_time_to_periapsis_matches_keplers_equation_elliptic_and_hyperbolic
             .iter()
             .find(|s| s.flight_path_angle_rad < 0.0)
             .unwrap();
-        let tof = time_to_periapsis_s(mu, &conic, st.true_anomaly_rad).unwrap();
+        let tof = coast_times(mu, st.radius_m, st.speed_m_s, st.flight_path_angle_rad)
+            .unwrap()
+            .to_periapsis_s
+            .unwrap();
         let y0 = burnout_state(st.radius_m, st.speed_m_s, st.flight_path_angle_rad);
         let (y, _) = propagate(mu, y0, tof, 1e-13);
         assert_relative_eq!(radius(&y), rp, max_relative = 1e-9);
@@ -333,7 +338,10 @@ fn integrated_sweep_to_apoapsis_matches_the_angle_to_apoapsis() {
     let mu = body.mu_m3_s2;
     let conic = Conic::from_apsides(body.radius_m + 250e3, body.radius_m + 8_000e3).unwrap();
     let st = burnout_for_conic(mu, &conic, body.radius_m + 1_000e3).unwrap()[0];
-    let tof = time_to_apoapsis_s(mu, &conic, st.true_anomaly_rad).unwrap();
+    let tof = coast_times(mu, st.radius_m, st.speed_m_s, st.flight_path_angle_rad)
+        .unwrap()
+        .to_apoapsis_s
+        .unwrap();
     let y0 = burnout_state(st.radius_m, st.speed_m_s, st.flight_path_angle_rad);
     let (y, _) = propagate(mu, y0, tof, 1e-13);
     let swept = y[1].atan2(y[0]).rem_euclid(2.0 * std::f64::consts::PI);

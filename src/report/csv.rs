@@ -6,7 +6,7 @@ use crate::sensitivity::{COLS, ROWS};
 use std::io::Write;
 
 /// Result columns after the input columns, in order.
-pub const RESULT_COLUMNS: [&str; 12] = [
+pub const RESULT_COLUMNS: [&str; 13] = [
     "status",
     "message",
     "branch",
@@ -19,6 +19,7 @@ pub const RESULT_COLUMNS: [&str; 12] = [
     "ecc",
     "period_s",
     "c3_m2_s2",
+    "burnout_radius_m",
 ];
 
 /// Launch-site columns, added after the result (and sensitivity) columns
@@ -96,6 +97,7 @@ pub fn solution_fields(mu_m3_s2: f64, s: &Solution, sensitivities: bool) -> Vec<
         fmt_opt(Some(c.ecc())),
         fmt_opt(c.period_s(mu_m3_s2)),
         fmt_opt(Some(c.c3_m2_s2(mu_m3_s2))),
+        fmt_opt(Some(st.radius_m)),
     ];
     if sensitivities {
         for row in s.sensitivity.rows {
@@ -121,16 +123,13 @@ pub fn failure_fields(status: &str, message: &str, sensitivities: bool) -> Vec<S
 /// I/O or CSV errors.
 pub fn write(out: &mut impl Write, solved: &Solved, sensitivities: bool) -> Result<(), csv::Error> {
     let mut w = csv::Writer::from_writer(out);
-    let mut header: Vec<String> = vec!["burnout_radius_m".into()];
-    header.extend(RESULT_COLUMNS.iter().map(|s| s.to_string()));
+    let mut header: Vec<String> = RESULT_COLUMNS.iter().map(|s| s.to_string()).collect();
     if sensitivities {
         header.extend(sensitivity_columns());
     }
     w.write_record(&header)?;
     for s in &solved.solutions {
-        let mut row = vec![fmt_opt(Some(solved.burnout_radius_m))];
-        row.extend(solution_fields(solved.body.mu_m3_s2, s, sensitivities));
-        w.write_record(&row)?;
+        w.write_record(solution_fields(solved.body.mu_m3_s2, s, sensitivities))?;
     }
     w.flush()?;
     Ok(())

@@ -73,6 +73,10 @@ pub struct SensitivityJson {
 pub struct SolutionJson {
     /// `ascending` or `descending`.
     pub branch: &'static str,
+    /// Burnout radius of this solution, m.
+    pub burnout_radius_m: f64,
+    /// Burnout altitude of this solution, m (addition).
+    pub burnout_alt_m: f64,
     /// Burnout speed, m/s.
     pub speed_m_s: f64,
     /// Flight-path angle from the local horizontal, deg.
@@ -104,6 +108,9 @@ pub struct SolutionJson {
     /// Surface-relative burnout velocity (with a site).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub relative: Option<RelativeJson>,
+    /// Achieved minus targeted value of each target at this solution, SI
+    /// (addition; the `solver` residuals are those of the first solution).
+    pub residuals: serde_json::Map<String, serde_json::Value>,
     /// Launch azimuth at the site as flown, deg (with a site; addition).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub launch_azimuth_deg: Option<f64>,
@@ -130,14 +137,16 @@ pub struct SolverJson {
 pub struct SolveJson {
     /// Body.
     pub body: BodyJson,
-    /// Burnout radius, m.
-    pub burnout_radius_m: f64,
-    /// Burnout altitude, m (addition).
-    pub burnout_alt_m: f64,
-    /// Circular speed at burnout radius, m/s (addition).
-    pub circular_speed_m_s: f64,
-    /// Escape speed at burnout radius, m/s (addition).
-    pub escape_speed_m_s: f64,
+    /// Burnout radius shared by every solution, m; null when the solutions
+    /// lie at different radii (each solution carries its own).
+    pub burnout_radius_m: Option<f64>,
+    /// Burnout altitude, m (addition; null like `burnout_radius_m`).
+    pub burnout_alt_m: Option<f64>,
+    /// Circular speed at burnout radius, m/s (addition; null like
+    /// `burnout_radius_m`).
+    pub circular_speed_m_s: Option<f64>,
+    /// Escape speed at burnout radius, m/s (addition; null likewise).
+    pub escape_speed_m_s: Option<f64>,
     /// Orbit of the first solution.
     pub orbit: Option<OrbitJson>,
     /// Solutions.
@@ -172,6 +181,8 @@ fn solution_json(mu: f64, surface_m: f64, s: &Solution) -> SolutionJson {
     let (sin_g, cos_g) = st.flight_path_angle_rad.sin_cos();
     SolutionJson {
         branch: st.branch.name(),
+        burnout_radius_m: st.radius_m,
+        burnout_alt_m: st.radius_m - surface_m,
         speed_m_s: st.speed_m_s,
         flight_path_angle_deg: st.flight_path_angle_rad.to_degrees(),
         zenith_angle_deg: 90.0 - st.flight_path_angle_rad.to_degrees(),
@@ -193,9 +204,17 @@ fn solution_json(mu: f64, surface_m: f64, s: &Solution) -> SolutionJson {
             flight_path_angle_deg: x.relative_flight_path_angle_rad.to_degrees(),
             azimuth_deg: x.relative_azimuth_rad.to_degrees(),
         }),
+        residuals: residual_map(&s.residuals),
         launch_azimuth_deg: s.site.map(|x| x.launch_azimuth_rad.to_degrees()),
         rotation_speed_m_s: s.site.map(|x| x.rotation_speed_m_s),
     }
+}
+
+fn residual_map(residuals: &[(String, f64)]) -> serde_json::Map<String, serde_json::Value> {
+    residuals
+        .iter()
+        .map(|(k, v)| (k.clone(), serde_json::json!(v)))
+        .collect()
 }
 
 /// Builds the wire document for a solved problem.
@@ -207,20 +226,18 @@ pub fn document(solved: &Solved) -> SolveJson {
         .iter()
         .map(|s| solution_json(mu, surface, s))
         .collect();
-    let mut residuals = serde_json::Map::new();
-    for (k, v) in &solved.solver.residuals {
-        residuals.insert(k.clone(), serde_json::json!(v));
-    }
+    let residuals = residual_map(&solved.solver.residuals);
+    let shared = solved.shared_burnout_radius_m();
     SolveJson {
         body: BodyJson {
             name: solved.body.name.clone(),
             mu_m3_s2: mu,
             radius_m: surface,
         },
-        burnout_radius_m: solved.burnout_radius_m,
-        burnout_alt_m: solved.burnout_radius_m - surface,
-        circular_speed_m_s: solved.body.circular_speed_m_s(solved.burnout_radius_m),
-        escape_speed_m_s: solved.body.escape_speed_m_s(solved.burnout_radius_m),
+        burnout_radius_m: shared,
+        burnout_alt_m: shared.map(|r| r - surface),
+        circular_speed_m_s: shared.map(|r| solved.body.circular_speed_m_s(r)),
+        escape_speed_m_s: shared.map(|r| solved.body.escape_speed_m_s(r)),
         orbit: solutions.first().map(|s| s.orbit.clone()),
         solutions,
         warnings: solved.warnings(),

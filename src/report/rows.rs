@@ -116,6 +116,7 @@ pub fn warning_tag(w: &Warning) -> String {
     match w {
         Warning::Suborbital { .. } => "suborbital".to_string(),
         Warning::LowPeriapsis { .. } => "low periapsis".to_string(),
+        Warning::SearchNotExhaustive { .. } => "search not exhaustive".to_string(),
     }
 }
 
@@ -148,8 +149,8 @@ pub fn push_csv_text(buf: &mut Vec<u8>, text: &str) {
     }
 }
 
-/// Number columns a solution row writes (9 results and 15 partials).
-const NUMBER_SLOTS: usize = 24;
+/// Number columns a solution row writes (10 results and 15 partials).
+const NUMBER_SLOTS: usize = 25;
 
 /// The text of the last number written in each numeric result column, so
 /// that a column that repeats from row to row (the orbit's elements in an
@@ -286,6 +287,7 @@ impl<'a> Record<'a> {
             Some(c.ecc()),
             c.period_s(mu_m3_s2),
             Some(c.c3_m2_s2(mu_m3_s2)),
+            Some(st.radius_m),
         ];
         for (slot, x) in numbers.into_iter().enumerate() {
             self.sep();

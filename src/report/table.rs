@@ -86,20 +86,28 @@ pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std:
     let (su, sf) = units.speed();
     let body = &solved.body;
     let mu = body.mu_m3_s2;
-    let r = solved.burnout_radius_m;
-    writeln!(
-        out,
-        "burnout over {}: altitude {} {lu} (radius {} {lu})",
-        body.name,
-        fixed((r - body.radius_m) / lf, 3),
-        fixed(r / lf, 3)
-    )?;
-    writeln!(
-        out,
-        "  circular speed {} {su}, escape speed {} {su} at burnout radius",
-        fixed(body.circular_speed_m_s(r) / sf, 4),
-        fixed(body.escape_speed_m_s(r) / sf, 4)
-    )?;
+    let shared = solved.shared_burnout_radius_m();
+    if let Some(r) = shared {
+        writeln!(
+            out,
+            "burnout over {}: altitude {} {lu} (radius {} {lu})",
+            body.name,
+            fixed((r - body.radius_m) / lf, 3),
+            fixed(r / lf, 3)
+        )?;
+        writeln!(
+            out,
+            "  circular speed {} {su}, escape speed {} {su} at burnout radius",
+            fixed(body.circular_speed_m_s(r) / sf, 4),
+            fixed(body.escape_speed_m_s(r) / sf, 4)
+        )?;
+    } else {
+        writeln!(
+            out,
+            "burnout over {}: the burnout altitude was solved for; each solution has its own (column 'alt {lu}')",
+            body.name
+        )?;
+    }
     writeln!(
         out,
         "  answered by: {} ({})",
@@ -118,10 +126,22 @@ pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std:
         .windows(2)
         .any(|w| w[0].state.conic != w[1].state.conic);
     writeln!(out)?;
+    let alt_column = |r: f64| {
+        if shared.is_none() {
+            format!(" {:>13}", fixed((r - body.radius_m) / lf, 3))
+        } else {
+            String::new()
+        }
+    };
     writeln!(
         out,
-        "{:<11} {:>13} {:>12} {:>12} {:>16}",
+        "{:<11}{} {:>13} {:>12} {:>12} {:>16}",
         "branch",
+        if shared.is_none() {
+            format!(" {:>13}", format!("alt {lu}"))
+        } else {
+            String::new()
+        },
         format!("speed {su}"),
         "fpa deg",
         "zenith deg",
@@ -131,8 +151,9 @@ pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std:
         let st = &s.state;
         writeln!(
             out,
-            "{:<11} {:>13} {:>12} {:>12} {:>16}",
+            "{:<11}{} {:>13} {:>12} {:>12} {:>16}",
             st.branch.name(),
+            alt_column(st.radius_m),
             fixed(
                 st.speed_m_s / sf,
                 if units == DisplayUnits::Us { 2 } else { 6 }

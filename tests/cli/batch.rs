@@ -54,7 +54,7 @@ fn read(text: &str) -> (Vec<String>, Vec<Vec<String>>) {
     (header, rows)
 }
 
-const RESULT_COLUMNS: [&str; 12] = [
+const RESULT_COLUMNS: [&str; 13] = [
     "status",
     "message",
     "branch",
@@ -67,6 +67,7 @@ const RESULT_COLUMNS: [&str; 12] = [
     "ecc",
     "period_s",
     "c3_m2_s2",
+    "burnout_radius_m",
 ];
 
 #[test]

@@ -96,6 +96,7 @@ fn csv_rows_match_solve_json_at_the_same_inputs() {
         "ecc",
         "period_s",
         "c3_m2_s2",
+        "burnout_radius_m",
     ]
     .iter()
     .map(|s| s.to_string())
