@@ -186,6 +186,18 @@ pub struct EllipsoidAxis {
     pub half_length: f64,
     /// Unit direction (speed, angle, radius components).
     pub direction: [f64; 3],
+    /// Distance along the axis (either way) at which the exact forward map
+    /// first breaks a tolerance; infinite when it never does within the
+    /// physical range.
+    pub exact_limit: f64,
+}
+
+impl EllipsoidAxis {
+    /// The half-length cut at the exact limit: the extent of the joint
+    /// region along this axis.
+    pub fn bounded(&self) -> f64 {
+        self.half_length.min(self.exact_limit)
+    }
 }
 
 /// The inverse answer: allowed burnout errors for given orbit tolerances.
@@ -193,12 +205,14 @@ pub struct EllipsoidAxis {
 pub struct Allowed {
     /// Per burnout quantity, alone.
     pub alone: Vec<AllowedError>,
-    /// The joint region sum_i (J_i dx / tol_i)^2 <= 1: it lies inside every
-    /// tolerance slab, so any error inside it keeps every quantity within
-    /// tolerance. Principal axes, longest first.
+    /// The joint region sum_i (J_i dx / tol_i)^2 <= 1, to first order inside
+    /// every tolerance slab, with each principal axis cut where the exact
+    /// forward map first breaks a tolerance along it. Principal axes,
+    /// longest first.
     pub ellipsoid_axes: Vec<EllipsoidAxis>,
-    /// Largest excursion of each component over the ellipsoid (SI); infinite
-    /// when unbounded.
+    /// Largest excursion of each component over the ellipsoid with its axes
+    /// cut at their exact limits (SI); infinite only when the exact map
+    /// never breaks a tolerance along some axis.
     pub ellipsoid_extent: [f64; 3],
 }
 
@@ -215,20 +229,23 @@ fn row_values(mu: f64, r: f64, v: f64, gamma: f64) -> Option<[Option<f64>; 5]> {
     ])
 }
 
-/// Worst tolerance ratio max_i |row_i(x + d e_k) - row_i(x)| / tol_i minus 1.
+/// Worst tolerance ratio max_i |row_i(x + d u) - row_i(x)| / tol_i minus 1,
+/// along a direction u in (r, v, gamma) order.
+#[derive(Clone, Copy)]
 struct Edge<'a> {
     mu: f64,
     base: [f64; 3],
     nominal: [Option<f64>; 5],
     tol: &'a Tolerances,
-    component: usize,
-    sign: f64,
+    direction: [f64; 3],
 }
 
 impl Edge<'_> {
     fn ratio_minus_one(&self, d: f64) -> f64 {
         let mut x = self.base;
-        x[self.component] += self.sign * d;
+        for (xi, ui) in x.iter_mut().zip(self.direction) {
+            *xi += d * ui;
+        }
         let Some(vals) = row_values(self.mu, x[0], x[1], x[2]) else {
             return f64::INFINITY;
         };
@@ -276,7 +293,7 @@ fn exact_edge(edge: &Edge, linear: f64, limit: f64) -> f64 {
         lo *= 0.5;
     }
     let solver = BrentRoot::new(lo, hi, 1e-15);
-    match Executor::new(edge_clone(edge), solver)
+    match Executor::new(*edge, solver)
         .configure(|s| s.param(0.5 * (lo + hi)).max_iters(200))
         .run()
     {
@@ -285,15 +302,19 @@ fn exact_edge(edge: &Edge, linear: f64, limit: f64) -> f64 {
     }
 }
 
-fn edge_clone<'a>(e: &Edge<'a>) -> Edge<'a> {
-    Edge {
-        mu: e.mu,
-        base: e.base,
-        nominal: e.nominal,
-        tol: e.tol,
-        component: e.component,
-        sign: e.sign,
+/// The exact excursion along a direction where the first tolerance is met,
+/// without a linear estimate (an axis the first-order map leaves free):
+/// grows a trial step geometrically from `start` until a tolerance breaks,
+/// then takes Brent's root; infinite when none breaks before `limit`.
+fn exact_edge_from(edge: &Edge, start: f64, limit: f64) -> f64 {
+    let mut d = start;
+    while d < limit {
+        if edge.ratio_minus_one(d) >= 0.0 {
+            return exact_edge(edge, d, limit);
+        }
+        d *= 2.0;
     }
+    f64::INFINITY
 }
 
 /// The largest burnout errors allowed for the orbit to stay within `tol`.
@@ -355,13 +376,16 @@ pub fn allowed_errors(
                 }
             }
         }
-        let mk = |sign: f64| Edge {
-            mu: mu_m3_s2,
-            base,
-            nominal,
-            tol,
-            component: component_index[k],
-            sign,
+        let mk = |sign: f64| {
+            let mut direction = [0.0; 3];
+            direction[component_index[k]] = sign;
+            Edge {
+                mu: mu_m3_s2,
+                base,
+                nominal,
+                tol,
+                direction,
+            }
         };
         alone.push(AllowedError {
             component: COMPONENTS[k],
@@ -384,15 +408,60 @@ pub fn allowed_errors(
                     f64::INFINITY
                 },
                 direction: [dir[0], dir[1], dir[2]],
+                exact_limit: f64::INFINITY,
             }
         })
         .collect();
     axes.sort_by(|a, b| b.half_length.total_cmp(&a.half_length));
-    let extent = match m.try_inverse() {
-        Some(inv) if axes.iter().all(|a| a.half_length.is_finite()) => {
-            [inv[(0, 0)].sqrt(), inv[(1, 1)].sqrt(), inv[(2, 2)].sqrt()]
+    // Cut every axis where the exact forward map first breaks a tolerance
+    // (either way along it): the first-order ellipsoid is unbounded along
+    // directions the tolerated quantities do not depend on to first order
+    // (moving burnout along the orbit), yet the exact map breaks a
+    // tolerance there at a finite distance.
+    let scale_of = [state.speed_m_s, 1.0, state.radius_m];
+    for ax in &mut axes {
+        // Components (v, gamma, r) -> the edge's (r, v, gamma) order.
+        let u = ax.direction;
+        let along = |sign: f64| Edge {
+            mu: mu_m3_s2,
+            base,
+            nominal,
+            tol,
+            direction: [sign * u[2], sign * u[0], sign * u[1]],
+        };
+        // Steps large enough to move one component by its whole size.
+        let limit = (0..3)
+            .map(|k| scale_of[k] / u[k].abs().max(1e-300))
+            .fold(f64::INFINITY, f64::min)
+            .min(limits.iter().fold(f64::INFINITY, |m, x| m.min(*x)) * 1e6);
+        let exact = if ax.half_length.is_finite() {
+            exact_edge(&along(1.0), ax.half_length, limit).min(exact_edge(
+                &along(-1.0),
+                ax.half_length,
+                limit,
+            ))
+        } else {
+            let start = 1e-9 * limit;
+            exact_edge_from(&along(1.0), start, limit).min(exact_edge_from(
+                &along(-1.0),
+                start,
+                limit,
+            ))
+        };
+        ax.exact_limit = exact;
+    }
+    let extent = if axes.iter().all(|a| a.bounded().is_finite()) {
+        let mut e = [0.0f64; 3];
+        for (k, ek) in e.iter_mut().enumerate() {
+            *ek = axes
+                .iter()
+                .map(|a| (a.bounded() * a.direction[k]).powi(2))
+                .sum::<f64>()
+                .sqrt();
         }
-        _ => [f64::INFINITY; 3],
+        e
+    } else {
+        [f64::INFINITY; 3]
     };
     Ok(Allowed {
         alone,

@@ -37,6 +37,9 @@ pub enum Warning {
         /// How many starting points were tried.
         starts: usize,
     },
+    /// Somewhere along the search the residual was within its own rounding
+    /// noise of zero: roots there cannot be located in double precision.
+    IllConditioned,
 }
 
 impl std::fmt::Display for Warning {
@@ -65,6 +68,10 @@ impl std::fmt::Display for Warning {
                 "periapsis altitude {} m is below the minimum safe periapsis altitude {} m",
                 g(*periapsis_alt_m),
                 g(*min_alt_m)
+            ),
+            Warning::IllConditioned => write!(
+                f,
+                "ill-conditioned: over part of the search the target is met to within double-precision rounding, so roots there cannot be located and may be missing"
             ),
             Warning::SearchNotExhaustive { starts } => write!(
                 f,

@@ -306,7 +306,16 @@ pub fn speed_for_target(
                     gdeg
                 )));
             }
-            let d = ((x - sa) * (x + sa)).sqrt() / c;
+            // e - |sin g| near a steep angle: (e - 1) + (1 - sin|g|) with
+            // 1 - sin|g| = 2 sin^2(pi/4 - |g|/2), so a near-radial angle on a
+            // near-parabolic target keeps its digits.
+            let x_minus_sa = if sa > 0.5 {
+                let h = (std::f64::consts::FRAC_PI_4 - 0.5 * gamma.abs()).sin();
+                (x - 1.0) + 2.0 * h * h
+            } else {
+                x - sa
+            };
+            let d = (x_minus_sa.max(0.0) * (x + sa)).sqrt() / c;
             let mut qs = vec![1.0 + d];
             let qm = 1.0 - d;
             // The minus root is physical only for an ellipse (e < 1): for

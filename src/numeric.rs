@@ -52,6 +52,10 @@ use std::f64::consts::{FRAC_PI_2, PI};
 
 /// Largest scaled residual at which over-specified targets count as agreeing.
 pub const AGREEMENT_TOLERANCE: f64 = 1e-9;
+/// A free burnout radius is sought up to this many body radii (or twice the
+/// largest targeted radius): a burnout farther out is not a burnout from
+/// this body.
+pub const MAX_FREE_RADIUS_BODY_RADII: f64 = 1e4;
 /// Largest scaled residual at which a square system counts as solved by
 /// the least-squares path.
 pub const ROOT_TOLERANCE: f64 = 1e-11;
@@ -185,16 +189,12 @@ impl System {
             .collect()
     }
 
-    /// Upper end of the burnout-radius domain, m: beyond the targets' radii
-    /// and, for a fixed speed, twice the radius at which it is the escape
-    /// speed (capped at 1e4 body radii).
+    /// Upper end of the burnout-radius domain when the radius is free, m:
+    /// [`MAX_FREE_RADIUS_BODY_RADII`] body radii, or twice the largest
+    /// targeted radius if that is farther.
     fn radius_domain_max_m(&self) -> f64 {
-        let escape_r = self
-            .fixed_speed_m_s
-            .map(|v| 4.0 * self.mu / (v * v))
-            .unwrap_or(0.0)
-            .min(1e4 * self.body_radius_m);
-        self.r_max.max(escape_r)
+        self.r_max
+            .max(MAX_FREE_RADIUS_BODY_RADII * self.body_radius_m)
     }
 
     /// Scaled, smooth residual of each target at a burnout state; `None` where
@@ -401,7 +401,12 @@ trait Line {
     /// Burnout state (r, v, fpa) at parameter `y`, `None` off the curve.
     fn state(&self, y: f64) -> Option<(f64, f64, f64)>;
     /// Residual at `y`, `None` where the target does not exist.
-    fn eval(&self, y: f64) -> Option<f64>;
+    fn eval(&self, y: f64) -> Option<f64> {
+        let (r, v, g) = self.state(y)?;
+        self.residual_at(r, v, g)
+    }
+    /// The residual at a burnout state (r, v, fpa).
+    fn residual_at(&self, r: f64, v: f64, g: f64) -> Option<f64>;
 }
 
 /// Brent's root (argmin) on a [`Line`].
@@ -444,7 +449,7 @@ struct LineRoot {
 /// of y itself (Brent stops within a few units of it) times the slope,
 /// plus the evaluation's own rounding floor [`RESIDUAL_FLOOR`].
 fn acceptance(y: f64, slope: f64) -> f64 {
-    RESIDUAL_FLOOR + 16.0 * f64::EPSILON * (y.abs() * slope.abs()).min(1e6)
+    RESIDUAL_FLOOR + 16.0 * f64::EPSILON * y.abs() * slope.abs()
 }
 
 /// Central-difference slope of a line's residual at `y` (only for the
@@ -459,12 +464,42 @@ fn slope<L: Line>(line: &L, y: f64, f0: f64) -> f64 {
     }
 }
 
+/// The residual a true root can show from the rounding of the burnout
+/// state itself (speed and radius to a few units of 1e-16 relative, the
+/// angle likewise): each partial of the residual times that rounding.
+fn state_noise<L: Line>(line: &L, y: f64) -> f64 {
+    let Some((r, v, g)) = line.state(y) else {
+        return 0.0;
+    };
+    let h = 1e-7;
+    let d = |a: Option<f64>, b: Option<f64>| match (a, b) {
+        (Some(a), Some(b)) => ((a - b) / (2.0 * h)).abs(),
+        _ => 0.0,
+    };
+    let dv = d(
+        line.residual_at(r, v * (1.0 + h), g),
+        line.residual_at(r, v * (1.0 - h), g),
+    );
+    let dr = d(
+        line.residual_at(r * (1.0 + h), v, g),
+        line.residual_at(r * (1.0 - h), v, g),
+    );
+    let dg = d(
+        line.residual_at(r, v, g + h * g.abs().max(1e-12)),
+        line.residual_at(r, v, g - h * g.abs().max(1e-12)),
+    );
+    8.0 * f64::EPSILON * (dv + dr + dg)
+}
+
 /// Accepts `y` as a root when its residual is within what rounding allows
-/// there (a sign change across a jump, e.g. a coast time wrapping at an
-/// apsis, is not a root: its residual stays of order one).
+/// there: the rounding of y times the slope, the rounding of the state
+/// ([`state_noise`]) and the evaluation floor. A sign change across a jump
+/// (e.g. a coast time wrapping at an apsis) is not a root: its residual
+/// stays of order one.
 fn accept<L: Line>(line: &L, y: f64, iterations: u64, double: bool) -> Option<LineRoot> {
     let f = line.eval(y)?;
-    (f.abs() <= acceptance(y, slope(line, y, f))).then_some(LineRoot {
+    let allowed = acceptance(y, slope(line, y, f)) + state_noise(line, y);
+    (f.abs() <= allowed).then_some(LineRoot {
         y,
         residual: f,
         iterations,
@@ -524,9 +559,10 @@ fn edge_bracket<L: Line>(line: &L, inside: f64, outside: f64, f_inside: f64) -> 
 /// dense where the residual can bend that fast (see [`grid_for`]).
 /// Candidates are accepted by [`accept`], and merged only when they agree
 /// to 1e-12 relative (a double root with a simple root within 1e-7).
-fn line_roots<L: Line>(line: &L, grid: &[f64]) -> Vec<LineRoot> {
+fn line_roots<L: Line>(line: &L, grid: &[f64]) -> (Vec<LineRoot>, bool) {
     let vals: Vec<Option<f64>> = grid.iter().map(|y| line.eval(*y)).collect();
     let mut found: Vec<LineRoot> = Vec::new();
+    let mut flat = false;
     for k in 0..grid.len().saturating_sub(1) {
         let (lo, hi, a, b) = match (vals[k], vals[k + 1]) {
             (Some(a), Some(b)) => (grid[k], grid[k + 1], a, b),
@@ -543,6 +579,12 @@ fn line_roots<L: Line>(line: &L, grid: &[f64]) -> Vec<LineRoot> {
         if a == 0.0 {
             found.extend(accept(line, lo, 0, false));
         } else if b != 0.0 && a.signum() != b.signum() {
+            // A sign change between two samples that both lie within the
+            // rounding noise of the residual is noise, not a located root.
+            if a.abs() <= noise_at(line, lo) && b.abs() <= noise_at(line, hi) {
+                flat = true;
+                continue;
+            }
             found.extend(brent_root(line, lo, hi));
         }
     }
@@ -559,6 +601,11 @@ fn line_roots<L: Line>(line: &L, grid: &[f64]) -> Vec<LineRoot> {
         let one_side = a.signum() == b.signum() && b.signum() == c.signum() && b != 0.0;
         // Only an extremum that bends toward zero can hide roots.
         if !(extremum && one_side && b.abs() < a.abs().max(c.abs())) {
+            continue;
+        }
+        // An extremum inside the noise band is noise.
+        if a.abs() <= noise_at(line, grid[k - 1]) || c.abs() <= noise_at(line, grid[k + 1]) {
+            flat |= b.abs() <= noise_at(line, grid[k]);
             continue;
         }
         let sign = b.signum();
@@ -600,7 +647,15 @@ fn line_roots<L: Line>(line: &L, grid: &[f64]) -> Vec<LineRoot> {
         }
         out.push(r);
     }
-    out
+    (out, flat)
+}
+
+/// The residual's rounding noise at `y`: what [`accept`] allows there.
+fn noise_at<L: Line>(line: &L, y: f64) -> f64 {
+    match line.eval(y) {
+        Some(f) => acceptance(y, slope(line, y, f)) + state_noise(line, y),
+        None => 0.0,
+    }
 }
 
 /// Energy ratios Q = r v^2 / mu at which coast-time residuals bend fastest:
@@ -710,10 +765,57 @@ impl Line for FreeLine<'_> {
         }
         (r >= s.body_radius_m).then_some((r, v, gamma))
     }
-    fn eval(&self, y: f64) -> Option<f64> {
-        let (r, v, gamma) = self.state(y)?;
-        self.system.residual_of(self.target, r, v, gamma)
+    fn residual_at(&self, r: f64, v: f64, g: f64) -> Option<f64> {
+        self.system.residual_of(self.target, r, v, g)
     }
+}
+
+/// The states at a fixed burnout radius whose true anomaly is fixed (by an
+/// angle-to-apoapsis target, nu = 180 deg - angle), parametrised by the
+/// eccentricity e in [0, 1): p = r (1 + e cos nu), horizontal speed
+/// sqrt(mu p) / r, radial speed sqrt(mu / p) e sin nu.
+struct AnomalySheet<'a> {
+    system: &'a System,
+    radius_m: f64,
+    true_anomaly_rad: f64,
+    other: usize,
+}
+
+impl Line for AnomalySheet<'_> {
+    fn state(&self, e: f64) -> Option<(f64, f64, f64)> {
+        let (sn, cn) = self.true_anomaly_rad.sin_cos();
+        let r = self.radius_m;
+        let p = r * (1.0 + e * cn);
+        if !(p > 0.0 && (0.0..1.0).contains(&e)) {
+            return None;
+        }
+        let mu = self.system.mu;
+        let v_t = (mu * p).sqrt() / r;
+        let v_r = (mu / p).sqrt() * e * sn;
+        Some((r, v_t.hypot(v_r), v_r.atan2(v_t)))
+    }
+    fn residual_at(&self, r: f64, v: f64, g: f64) -> Option<f64> {
+        self.system.residual_of(self.other, r, v, g)
+    }
+}
+
+/// Eccentricities in [1e-8, 1): uniform, geometric toward 0 (near-circular,
+/// down to 1e-8: below that the true anomaly recomputed from the rounded
+/// state carries more than 1e-8 of error and the residual is noise) and
+/// toward 1 (near-parabolic, down to 1e-15).
+fn ecc_grid() -> Vec<f64> {
+    let mut g: Vec<f64> = (1..=1024).map(|k| k as f64 / 1024.0).collect();
+    for k in 0..=112 {
+        let d = 10f64.powf(-1.0 - k as f64 / 8.0);
+        if d >= 1e-8 {
+            g.push(d);
+        }
+        g.push(1.0 - d);
+    }
+    g.retain(|e| (1e-8..1.0).contains(e));
+    g.sort_by(f64::total_cmp);
+    g.dedup();
+    g
 }
 
 /// One sheet of the one-parameter family of burnout states that meet an
@@ -736,19 +838,21 @@ impl Line for Sheet<'_> {
         let v = speeds.get(self.k)?.speed_m_s;
         Some((self.radius_m, v, gamma))
     }
-    fn eval(&self, gamma: f64) -> Option<f64> {
-        let (r, v, gamma) = self.state(gamma)?;
-        self.system.residual_of(self.other, r, v, gamma)
+    fn residual_at(&self, r: f64, v: f64, g: f64) -> Option<f64> {
+        self.system.residual_of(self.other, r, v, g)
     }
 }
 
-/// Roots of a line as burnout states with their iteration counts.
-fn roots_as_states<L: Line>(line: &L, grid: &[f64]) -> (Vec<(f64, f64, f64)>, u64) {
-    let roots = line_roots(line, grid);
+/// Roots of a line as burnout states, with their iteration counts and
+/// whether part of the line was within rounding noise of zero (roots there
+/// cannot be located in double precision).
+fn roots_as_states<L: Line>(line: &L, grid: &[f64]) -> (Vec<(f64, f64, f64)>, u64, bool) {
+    let (roots, flat) = line_roots(line, grid);
     let iterations = roots.iter().map(|r| r.iterations).sum();
     (
         roots.iter().filter_map(|r| line.state(r.y)).collect(),
         iterations,
+        flat,
     )
 }
 
@@ -756,13 +860,14 @@ fn roots_as_states<L: Line>(line: &L, grid: &[f64]) -> (Vec<(f64, f64, f64)>, u6
 /// target `element` and another target `other`: every root, bracketed over
 /// the flight-path angle on each sheet of states that meet the element
 /// exactly.
-fn sheet_roots(system: &System, element: usize, other: usize) -> (Vec<(f64, f64, f64)>, u64) {
+fn sheet_roots(system: &System, element: usize, other: usize) -> (Vec<(f64, f64, f64)>, u64, bool) {
     let Some(r) = system.fixed_radius_m else {
-        return (Vec::new(), 0);
+        return (Vec::new(), 0, false);
     };
     let grid = fpa_grid();
     let mut out = Vec::new();
     let mut iterations = 0;
+    let mut flat = false;
     for k in 0..2 {
         let sheet = Sheet {
             system,
@@ -771,11 +876,12 @@ fn sheet_roots(system: &System, element: usize, other: usize) -> (Vec<(f64, f64,
             other,
             k,
         };
-        let (states, it) = roots_as_states(&sheet, &grid);
+        let (states, it, f) = roots_as_states(&sheet, &grid);
         out.extend(states);
         iterations += it;
+        flat |= f;
     }
-    (out, iterations)
+    (out, iterations, flat)
 }
 /// Starting points: closed-form states where some pair of orbit-element
 /// targets has one, then a grid over the domain.
@@ -928,6 +1034,10 @@ enum Square {
     /// Radius fixed, an orbit element (first) and another target (second):
     /// bracketed along the element's sheets.
     Sheet(usize, usize),
+    /// Radius fixed, an angle-to-apoapsis target (first, fixing the true
+    /// anomaly) and another target (second): bracketed over the
+    /// eccentricity.
+    Anomaly(usize, usize),
 }
 
 fn square_subset(system: &System) -> Option<Square> {
@@ -958,10 +1068,15 @@ fn square_subset(system: &System) -> Option<Square> {
                     }
                 }
             }
-            let e = *elements.first()?;
+            if let Some(&e) = elements.first() {
+                return (0..m)
+                    .find(|j| *j != e && !t[*j].quantity.is_orbit_element())
+                    .map(|j| Square::Sheet(e, j));
+            }
+            let a = (0..m).find(|i| t[*i].quantity == TargetQuantity::AngleToApoapsis)?;
             (0..m)
-                .find(|j| *j != e && !t[*j].quantity.is_orbit_element())
-                .map(|j| Square::Sheet(e, j))
+                .find(|j| *j != a && t[*j].quantity != TargetQuantity::AngleToApoapsis)
+                .map(|j| Square::Anomaly(a, j))
         }
         _ => None,
     }
@@ -991,18 +1106,20 @@ pub fn solve_from(problem: &Problem, start: (f64, f64, f64)) -> Result<Solved, E
 
 /// Roots of a square subset as states (r, v, fpa), the method's name, and
 /// the iterations taken.
-type SquareRoots = (Vec<(f64, f64, f64)>, &'static str, u64);
+type SquareRoots = (Vec<(f64, f64, f64)>, &'static str, u64, bool);
 
 /// Roots of a square subset.
-fn solve_square(
-    system: &System,
-    square: &Square,
-) -> Result<SquareRoots, Error> {
+fn solve_square(system: &System, square: &Square) -> Result<SquareRoots, Error> {
     match *square {
         Square::Line(i) => {
             let line = FreeLine { system, target: i };
-            let (states, it) = roots_as_states(&line, &grid_for(system));
-            Ok((states, "brent-root (argmin), bracketed over the domain", it))
+            let (states, it, flat) = roots_as_states(&line, &grid_for(system));
+            Ok((
+                states,
+                "brent-root (argmin), bracketed over the domain",
+                it,
+                flat,
+            ))
         }
         Square::Pair(i, j) => {
             let r = system.fixed_radius_m.unwrap_or(f64::NAN);
@@ -1015,14 +1132,31 @@ fn solve_square(
                     .collect(),
                 "closed-form pair",
                 0,
+                false,
+            ))
+        }
+        Square::Anomaly(a, o) => {
+            let sheet = AnomalySheet {
+                system,
+                radius_m: system.fixed_radius_m.unwrap_or(f64::NAN),
+                true_anomaly_rad: PI - system.targets[a].value,
+                other: o,
+            };
+            let (states, it, flat) = roots_as_states(&sheet, &ecc_grid());
+            Ok((
+                states,
+                "brent-root (argmin) bracketed over the eccentricity along the states at the targeted true anomaly",
+                it,
+                flat,
             ))
         }
         Square::Sheet(e, o) => {
-            let (states, it) = sheet_roots(system, e, o);
+            let (states, it, flat) = sheet_roots(system, e, o);
             Ok((
                 states,
                 "brent-root (argmin) bracketed over the flight-path angle along the states meeting the orbit-element target",
                 it,
+                flat,
             ))
         }
     }
@@ -1051,11 +1185,17 @@ fn solve_system(
     check_not_a_family(system)?;
     if start.is_none() {
         if let Some(square) = square_subset(system) {
-            let (candidates, method, iterations) = solve_square(system, &square)?;
+            let (candidates, method, iterations, flat) = solve_square(system, &square)?;
             if candidates.is_empty() {
-                return Err(no_solution(problem, system));
+                return Err(no_solution(problem, system, flat));
             }
-            return checked_roots(problem, system, candidates, method, iterations);
+            let mut solved = checked_roots(problem, system, candidates, method, iterations)?;
+            if flat {
+                for s in &mut solved.solutions {
+                    s.warnings.push(Warning::IllConditioned);
+                }
+            }
+            return Ok(solved);
         }
     }
     least_squares(problem, system, start)
@@ -1272,7 +1412,7 @@ fn conflict(problem: &Problem, system: &System, r: f64, v: f64, gamma: f64) -> E
     }
 }
 
-fn no_solution(problem: &Problem, system: &System) -> Error {
+fn no_solution(problem: &Problem, system: &System, flat: bool) -> Error {
     let flags: Vec<&str> = problem.targets.iter().map(|t| t.flag).collect();
     let fixed: Vec<String> = [
         system
@@ -1289,10 +1429,15 @@ fn no_solution(problem: &Problem, system: &System) -> Error {
     .flatten()
     .collect();
     Error::Infeasible(format!(
-        "no {} reaches {} with {}: the residual has no root over the whole domain",
+        "no {} reaches {} with {}: the residual has no root over the whole domain{}",
         system.unknowns[0].name(),
         flags.join(", "),
-        fixed.join(", ")
+        fixed.join(", "),
+        if flat {
+            " (part of the domain is within double-precision rounding of the target, where a root cannot be located)"
+        } else {
+            ""
+        }
     ))
 }
 

@@ -351,3 +351,51 @@ fn integrated_sweep_to_apoapsis_matches_the_angle_to_apoapsis() {
         max_relative = 1e-9
     );
 }
+
+#[test]
+fn integrated_coast_roots_in_hard_regimes_reach_periapsis_on_time() {
+    // Roots the numerical solver returns for a coast-time target near
+    // circular with a tiny angle and a free radius, two radii 2% apart
+    // (reference roots: scripts/coast_reference.py, seed 1, case 248):
+    // integrating the two-body
+    // equations for the targeted time from each ends at periapsis (radial
+    // speed through zero, radius at its minimum).
+    use burnout::problem::{solve, Problem};
+    use burnout::target::{Target, TargetQuantity};
+    let earth = Body::from_name("earth").unwrap();
+    let cases = [Problem {
+        burnout_radius_m: None,
+        targets: vec![Target::new(
+            TargetQuantity::TimeToPeriapsis,
+            4_199.312_606_077_78,
+            "--time-to-periapsis",
+        )],
+        flight_path_angle_rad: Some((-0.007_680_298_369_656_212f64).to_radians()),
+        speed_m_s: Some(6_527.456_784_168_85),
+        min_periapsis_alt_m: None,
+        body: earth,
+    }];
+    for p in &cases {
+        let tof = p.targets.last().unwrap().value;
+        let solved = solve(p).unwrap();
+        assert!(solved.solutions.len() >= 2);
+        let mu = p.body.mu_m3_s2;
+        for s in &solved.solutions {
+            let st = &s.state;
+            let y0 = burnout_state(st.radius_m, st.speed_m_s, st.flight_path_angle_rad);
+            let (y, _) = propagate(mu, y0, tof, 1e-13);
+            let rp = st.conic.periapsis_radius_m();
+            assert!(
+                (radius(&y) - rp).abs() < 1e-8 * st.radius_m,
+                "r {} vs rp {rp}",
+                radius(&y)
+            );
+            let v_peri = st.conic.angular_momentum_m2_s(mu) / rp;
+            assert!(
+                radial_speed(&y).abs() < 1e-6 * v_peri,
+                "vr {} at v_peri {v_peri}",
+                radial_speed(&y)
+            );
+        }
+    }
+}

@@ -36,6 +36,7 @@ struct AllowedJson {
 struct AxisJson {
     half_length: Option<f64>,
     direction: [f64; 3],
+    exact_limit: Option<f64>,
 }
 
 #[derive(Serialize)]
@@ -126,6 +127,7 @@ pub fn write_json(out: &mut impl Write, reports: &[BudgetReport]) -> std::io::Re
                         .map(|ax| AxisJson {
                             half_length: finite(ax.half_length),
                             direction: ax.direction,
+                            exact_limit: finite(ax.exact_limit),
                         })
                         .collect(),
                     extent: crate::budget::COMPONENTS
@@ -243,7 +245,7 @@ pub fn write_table(out: &mut impl Write, reports: &[BudgetReport]) -> std::io::R
                 )?;
             }
             writeln!(out)?;
-            writeln!(out, "  joint region (ellipsoid inside every tolerance; errors inside it are safe together):")?;
+            writeln!(out, "  joint region (first-order ellipsoid inside every tolerance, each axis cut where the exact forward map first breaks one):")?;
             for (k, c) in crate::budget::COMPONENTS.iter().enumerate() {
                 writeln!(
                     out,
@@ -256,11 +258,16 @@ pub fn write_table(out: &mut impl Write, reports: &[BudgetReport]) -> std::io::R
             for ax in &a.ellipsoid_axes {
                 writeln!(
                     out,
-                    "  axis half-length {:>12} along (speed m/s {:+.4}, fpa rad {:+.4}, radius m {:+.4})",
+                    "  axis half-length {:>12} (exact limit {:>12}) along (speed m/s {:+.4}, fpa rad {:+.4}, radius m {:+.4})",
                     if ax.half_length.is_finite() {
                         g(ax.half_length)
                     } else {
                         "unbounded".into()
+                    },
+                    if ax.exact_limit.is_finite() {
+                        g(ax.exact_limit)
+                    } else {
+                        "none found".into()
                     },
                     ax.direction[0],
                     ax.direction[1],
@@ -273,7 +280,7 @@ pub fn write_table(out: &mut impl Write, reports: &[BudgetReport]) -> std::io::R
             {
                 writeln!(
                     out,
-                    "  an unbounded axis means the tolerances given do not constrain that combination of burnout errors to first order"
+                    "  an unbounded axis: the tolerances do not constrain that combination of burnout errors to first order; its extent above is where the exact map breaks a tolerance (not safe beyond it)"
                 )?;
             }
         }

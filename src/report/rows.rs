@@ -117,6 +117,7 @@ pub fn warning_tag(w: &Warning) -> String {
         Warning::Suborbital { .. } => "suborbital".to_string(),
         Warning::LowPeriapsis { .. } => "low periapsis".to_string(),
         Warning::SearchNotExhaustive { .. } => "search not exhaustive".to_string(),
+        Warning::IllConditioned => "ill-conditioned".to_string(),
     }
 }
 

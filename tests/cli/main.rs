@@ -3,7 +3,7 @@
 //! streams and, for machine output, the numbers read back with serde_json
 //! or csv and compared with `approx`.
 //!
-//! The contract being checked is `/work/shared/CONTRACT.md` (flags, JSON
+//! The contract being checked is the shared machine contract (flags, JSON
 //! keys, exit codes).
 
 mod bad_input;
@@ -13,6 +13,7 @@ mod cases;
 mod scan;
 mod site;
 mod solve;
+mod targeting;
 
 use serde_json::Value;
 use std::path::PathBuf;
