@@ -177,13 +177,18 @@ def quad_time(mu, r, v, g, to):
     else:
         nu1 = mp.pi if nu0 <= mp.pi else 3 * mp.pi
     f = lambda nu: (p / (1 + e * mp.cos(nu))) ** 2 / h
-    # split geometrically towards the apse where the integrand peaks
-    pts = [nu0]
-    span = nu1 - nu0
-    for k in range(1, 40):
-        pts.append(nu1 - span * mp.mpf(2) ** (-k))
-    pts.append(nu1)
-    return mp.quad(f, pts)
+    # split geometrically on both sides of apoapsis (where the integrand
+    # peaks for near-parabolic orbits) and towards the end point
+    pts = {nu0, nu1}
+    for k in range(1, 60):
+        step = mp.mpf(2) ** (-k / mp.mpf(2))
+        for c in (mp.pi, nu1):
+            for cand in (c - step, c + step):
+                if nu0 < cand < nu1:
+                    pts.add(cand)
+    if nu0 < mp.pi < nu1:
+        pts.add(mp.pi)
+    return mp.quad(f, sorted(pts))
 
 
 def self_test():
@@ -258,29 +263,34 @@ class Problem:
         if t == "Csma":
             v2 = mu * (2 / P["r"] - 1 / P["elem"])
             return P["r"], mp.sqrt(v2), u
-        # true-anomaly (or eccentricity) parametrised element families
-        r = P["r"]
-        if t == "Cecc":
-            e, nu = P["elem"], u
-            p = r * (1 + e * mp.cos(nu))
-        elif t == "Crp":
-            rp, nu = P["elem"], u
-            e = (r - rp) / (rp - r * mp.cos(nu))
-            p = rp * (1 + e)
-        elif t == "Cra":
-            ra, nu = P["elem"], u
-            e = (ra - r) / (ra + r * mp.cos(nu))
-            p = ra * (1 - e)
-        elif t == "Cang":
-            e, nu = u, mp.radians(180 - P["elem"])
-            p = r * (1 + e * mp.cos(nu))
-        else:
-            raise ValueError(t)
-        if p <= 0 or e < 0:
-            return None
-        vt = mp.sqrt(mu * p) / r
-        vr = mp.sqrt(mu / p) * e * mp.sin(nu)
-        return r, mp.sqrt(vt * vt + vr * vr), mp.atan2(vr, vt)
+        # true-anomaly (or eccentricity) parametrised element families; the
+        # 1 - e and 1 + e cos nu cancellations near e = 1 and nu = 180 deg
+        # are absorbed by 40 extra digits
+        with mp.workdps(mp.mp.dps + 40):
+            r = P["r"]
+            if t == "Cecc":
+                e, nu = P["elem"], u
+                p = r * (1 + e * mp.cos(nu))
+            elif t == "Crp":
+                rp, nu = P["elem"], u
+                e = (r - rp) / (rp - r * mp.cos(nu))
+                p = rp * (1 + e)
+            elif t == "Cra":
+                ra, nu = P["elem"], u
+                # 1 - e = r (1 + cos nu) / (ra + r cos nu), 1 + cos nu = 2 cos^2(nu/2)
+                one_minus_e = 2 * r * mp.cos(nu / 2) ** 2 / (ra + r * mp.cos(nu))
+                e = 1 - one_minus_e
+                p = ra * one_minus_e
+            elif t == "Cang":
+                e, nu = u, mp.radians(180 - P["elem"])
+                p = r * (1 + e * mp.cos(nu))
+            else:
+                raise ValueError(t)
+            if p <= 0 or e < 0:
+                return None
+            vt = mp.sqrt(mu * p) / r
+            vr = mp.sqrt(mu / p) * e * mp.sin(nu)
+            return r, mp.sqrt(vt * vt + vr * vr), mp.atan2(vr, vt)
 
     def residual(self, u, P=None):
         P = P or self.P

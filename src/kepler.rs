@@ -92,15 +92,31 @@ pub fn coast_times(
     speed_m_s: f64,
     flight_path_angle_rad: f64,
 ) -> Option<CoastTimes> {
-    let (r, v, fpa) = (radius_m, speed_m_s, flight_path_angle_rad);
-    if !(r > 0.0 && v > 0.0 && mu_m3_s2 > 0.0 && fpa.abs() < 0.5 * PI && fpa.is_finite()) {
+    if !(speed_m_s > 0.0) {
         return None;
     }
+    let energy = EnergyRatio::new(mu_m3_s2, radius_m, speed_m_s);
+    coast_times_at(mu_m3_s2, radius_m, flight_path_angle_rad, energy)
+}
+
+/// As [`coast_times`], with the energy ratio given: a caller that knows
+/// Q - 1 and 2 - Q more exactly than the rounded speed carries them (e.g.
+/// from a targeted semi-major axis) passes them here.
+pub fn coast_times_at(
+    mu_m3_s2: f64,
+    radius_m: f64,
+    flight_path_angle_rad: f64,
+    energy: EnergyRatio,
+) -> Option<CoastTimes> {
+    let (r, fpa) = (radius_m, flight_path_angle_rad);
     let EnergyRatio {
         q,
         q_minus_1,
         two_minus_q,
-    } = EnergyRatio::new(mu_m3_s2, r, v);
+    } = energy;
+    if !(r > 0.0 && q > 0.0 && mu_m3_s2 > 0.0 && fpa.abs() < 0.5 * PI && fpa.is_finite()) {
+        return None;
+    }
     let (s, c) = fpa.sin_cos();
     let descending = s < 0.0;
     let out = if two_minus_q > 0.0 {

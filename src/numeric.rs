@@ -39,7 +39,9 @@ use crate::body::Body;
 use crate::error::{g, Error};
 use crate::feasibility::Warning;
 use crate::invert::{burnout_for_conic, forward_state, BurnoutState};
+#[cfg(test)]
 use crate::kepler::coast_times;
+use crate::kepler::coast_times_at;
 use crate::orbit::forward;
 use crate::orbit::EnergyRatio;
 use crate::problem::{finish, Problem, Solved, SolverReport};
@@ -212,6 +214,19 @@ impl System {
         if !(r.is_finite() && v.is_finite() && gamma.is_finite()) || r <= 0.0 || v <= 0.0 {
             return None;
         }
+        self.residual_with(i, r, v, gamma, EnergyRatio::new(self.mu, r, v))
+    }
+
+    /// As [`System::residual_of`], with the state's energy ratio given
+    /// (more exactly than the speed carries it, where a caller knows it).
+    fn residual_with(
+        &self,
+        i: usize,
+        r: f64,
+        v: f64,
+        gamma: f64,
+        energy: EnergyRatio,
+    ) -> Option<f64> {
         let mu = self.mu;
         let t = self.targets.get(i)?;
         let (s, c) = gamma.sin_cos();
@@ -219,7 +234,7 @@ impl System {
             q,
             q_minus_1,
             two_minus_q,
-        } = EnergyRatio::new(mu, r, v);
+        } = energy;
         let e = (q_minus_1 - q * s * s).hypot(q * s * c);
         let p = r * q * c * c;
         let inv_a = two_minus_q / r;
@@ -238,8 +253,8 @@ impl System {
             Q::SpecificEnergy => (-0.5 * mu * inv_a - x) * self.r_ref / mu,
             Q::Ecc => e - x,
             Q::SemiLatusRectum => p / x - 1.0,
-            Q::TimeToApoapsis => coast_times(mu, r, v, gamma)?.to_apoapsis_s? / x - 1.0,
-            Q::TimeToPeriapsis => coast_times(mu, r, v, gamma)?.to_periapsis_s? / x - 1.0,
+            Q::TimeToApoapsis => coast_times_at(mu, r, gamma, energy)?.to_apoapsis_s? / x - 1.0,
+            Q::TimeToPeriapsis => coast_times_at(mu, r, gamma, energy)?.to_periapsis_s? / x - 1.0,
             Q::AngleToApoapsis => {
                 if two_minus_q <= 0.0 {
                     return None;
@@ -407,6 +422,11 @@ trait Line {
     }
     /// The residual at a burnout state (r, v, fpa).
     fn residual_at(&self, r: f64, v: f64, g: f64) -> Option<f64>;
+    /// Whether the speed and the angle are derived from the parameter (and
+    /// carry its rounding into the residual) rather than given or equal to it.
+    fn derived(&self) -> (bool, bool) {
+        (true, true)
+    }
 }
 
 /// Brent's root (argmin) on a [`Line`].
@@ -465,30 +485,37 @@ fn slope<L: Line>(line: &L, y: f64, f0: f64) -> f64 {
 }
 
 /// The residual a true root can show from the rounding of the burnout
-/// state itself (speed and radius to a few units of 1e-16 relative, the
-/// angle likewise): each partial of the residual times that rounding.
+/// state where the line computes it (a speed and angle derived from the
+/// parameter, each to a few units of 1e-16 relative): each partial of the
+/// residual times that rounding. The fixed inputs are exact doubles and
+/// the parameter's own rounding is [`acceptance`]'s.
 fn state_noise<L: Line>(line: &L, y: f64) -> f64 {
     let Some((r, v, g)) = line.state(y) else {
         return 0.0;
     };
+    let (speed, angle) = line.derived();
     let h = 1e-7;
     let d = |a: Option<f64>, b: Option<f64>| match (a, b) {
         (Some(a), Some(b)) => ((a - b) / (2.0 * h)).abs(),
         _ => 0.0,
     };
-    let dv = d(
-        line.residual_at(r, v * (1.0 + h), g),
-        line.residual_at(r, v * (1.0 - h), g),
-    );
-    let dr = d(
-        line.residual_at(r * (1.0 + h), v, g),
-        line.residual_at(r * (1.0 - h), v, g),
-    );
-    let dg = d(
-        line.residual_at(r, v, g + h * g.abs().max(1e-12)),
-        line.residual_at(r, v, g - h * g.abs().max(1e-12)),
-    );
-    8.0 * f64::EPSILON * (dv + dr + dg)
+    let dv = if speed {
+        d(
+            line.residual_at(r, v * (1.0 + h), g),
+            line.residual_at(r, v * (1.0 - h), g),
+        )
+    } else {
+        0.0
+    };
+    let dg = if angle {
+        d(
+            line.residual_at(r, v, g + h * g.abs().max(1e-12)),
+            line.residual_at(r, v, g - h * g.abs().max(1e-12)),
+        )
+    } else {
+        0.0
+    };
+    8.0 * f64::EPSILON * (dv + dg)
 }
 
 /// Accepts `y` as a root when its residual is within what rounding allows
@@ -768,6 +795,9 @@ impl Line for FreeLine<'_> {
     fn residual_at(&self, r: f64, v: f64, g: f64) -> Option<f64> {
         self.system.residual_of(self.target, r, v, g)
     }
+    fn derived(&self) -> (bool, bool) {
+        (false, false)
+    }
 }
 
 /// The states at a fixed burnout radius whose true anomaly is fixed (by an
@@ -830,6 +860,69 @@ struct Sheet<'a> {
     k: usize,
 }
 
+impl Sheet<'_> {
+    /// The energy ratio of the sheet's state at `gamma` from the element
+    /// itself, where that is more exact than from the rounded speed (near
+    /// escape 2 - Q is the small difference the coast times hang on):
+    /// - energy targets: 2 - Q = r/a, Q - 1 = (a - r)/a;
+    /// - apsis radius R: with d- = (R - r) + 2 r sin^2(g/2) and d+ = R + r cos g,
+    ///   2 - Q = 2 r ((R - r) + r sin^2 g) / (d- d+), Q - 1 = ((R - r)^2 - r^2 sin^2 g) / (d- d+);
+    /// - eccentricity: Q - 1 = +-D with D = sqrt(e^2 - sin^2 g)/cos g, and
+    ///   2 - Q = (1 - e^2) / (cos^2 g (1 + D)) on the + sheet.
+    fn energy(&self, gamma: f64, v: f64) -> EnergyRatio {
+        use TargetQuantity as Q;
+        let (mu, r, x) = (self.system.mu, self.radius_m, self.element.value);
+        let from_inv_a = |inv_a: f64| {
+            let two_minus_q = r * inv_a;
+            let q_minus_1 = if inv_a > 0.0 {
+                (1.0 / inv_a - r) * inv_a
+            } else {
+                1.0 - two_minus_q
+            };
+            EnergyRatio {
+                q: 2.0 - two_minus_q,
+                q_minus_1,
+                two_minus_q,
+            }
+        };
+        let (s, c) = gamma.sin_cos();
+        match self.element.quantity {
+            Q::Sma => from_inv_a(1.0 / x),
+            Q::Period => {
+                let n = 2.0 * PI / x;
+                from_inv_a((n * n / mu).cbrt())
+            }
+            Q::C3 => from_inv_a(-x / mu),
+            Q::SpecificEnergy => from_inv_a(-2.0 * x / mu),
+            Q::PeriapsisRadius | Q::ApoapsisRadius => {
+                let half = (0.5 * gamma).sin();
+                let d_minus = (x - r) + 2.0 * r * half * half;
+                let d_plus = x + r * c;
+                let den = d_minus * d_plus;
+                let two_minus_q = 2.0 * r * ((x - r) + r * s * s) / den;
+                EnergyRatio {
+                    q: 2.0 - two_minus_q,
+                    q_minus_1: ((x - r) * (x - r) - r * r * s * s) / den,
+                    two_minus_q,
+                }
+            }
+            _ => {
+                let er = EnergyRatio::new(mu, r, v);
+                if self.element.quantity == Q::Ecc && x < 1.0 && er.q_minus_1 > 0.0 {
+                    // The + sheet of an ellipse: 2 - Q without cancellation.
+                    let d = er.q_minus_1;
+                    EnergyRatio {
+                        two_minus_q: (1.0 - x) * (1.0 + x) / (c * c * (1.0 + d)),
+                        ..er
+                    }
+                } else {
+                    er
+                }
+            }
+        }
+    }
+}
+
 impl Line for Sheet<'_> {
     fn state(&self, gamma: f64) -> Option<(f64, f64, f64)> {
         let speeds =
@@ -837,6 +930,19 @@ impl Line for Sheet<'_> {
                 .ok()?;
         let v = speeds.get(self.k)?.speed_m_s;
         Some((self.radius_m, v, gamma))
+    }
+    fn eval(&self, gamma: f64) -> Option<f64> {
+        let (r, v, g) = self.state(gamma)?;
+        let energy = self.energy(g, v);
+        if !(energy.q.is_finite() && energy.two_minus_q.is_finite()) {
+            return self.residual_at(r, v, g);
+        }
+        self.system.residual_with(self.other, r, v, g, energy)
+    }
+    fn derived(&self) -> (bool, bool) {
+        // The energy comes from the element itself except on eccentricity
+        // sheets, where it follows the rounded speed.
+        (self.element.quantity == TargetQuantity::Ecc, false)
     }
     fn residual_at(&self, r: f64, v: f64, g: f64) -> Option<f64> {
         self.system.residual_of(self.other, r, v, g)
