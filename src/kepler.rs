@@ -92,7 +92,7 @@ pub fn coast_times(
     speed_m_s: f64,
     flight_path_angle_rad: f64,
 ) -> Option<CoastTimes> {
-    if !(speed_m_s > 0.0) {
+    if speed_m_s.is_nan() || speed_m_s <= 0.0 {
         return None;
     }
     let energy = EnergyRatio::new(mu_m3_s2, radius_m, speed_m_s);
