@@ -12,20 +12,33 @@
 //! with status `infeasible` or `invalid` and the reason. Every input row has
 //! at least one output row, in input order; a failed row never stops the run.
 //!
-//! Memory stays flat: records are read into a fixed pool of
-//! [`BATCH_CHUNK`] reused records, solved (in parallel with rayon when asked)
-//! and written before the next chunk is read.
+//! Memory stays flat: records are read into a pool of at most
+//! [`BATCH_CHUNK`] reused records holding at most [`POOL_BYTES`] of cells,
+//! solved (in parallel with rayon when asked) and written before the next
+//! chunk is read. One record is at most [`reader::MAX_RECORD_BYTES`] as read
+//! (a longer one is an `invalid` row), a header at most [`MAX_COLUMNS`] wide.
+//! A quoted field left open at the end of the input stops the run with an
+//! error naming its line (after the rows before it are written).
+
+pub mod reader;
 
 use crate::error::{Error, ErrorClass};
 use crate::inputs::{solve_inputs, Inputs};
-use crate::report::csv::{sensitivity_columns, RESULT_COLUMNS, SITE_COLUMNS};
-use crate::report::rows::{kept, no_branch_message, push_csv_text, BranchChoice, Record};
+use crate::report::csv::{push_cell_bytes, sensitivity_columns, RESULT_COLUMNS, SITE_COLUMNS};
+use crate::report::rows::{kept, no_branch_message, BranchChoice, Record};
 use crate::scan::solve_input_kind;
 use rayon::prelude::*;
-use std::io::{Read, Write};
+use reader::{RawRecord, ReadError, RecordReader, MAX_RECORD_BYTES};
+use std::io::{BufRead, Write};
 
-/// Records read, solved and written together.
+/// Records read, solved and written together (at most).
 pub const BATCH_CHUNK: usize = 4096;
+/// Cell bytes held by one chunk of records (at most, plus one record).
+pub const POOL_BYTES: usize = 4 << 20;
+/// Widest header accepted, columns.
+pub const MAX_COLUMNS: usize = 1024;
+/// A pool slot that grew past this many bytes is freed after its chunk.
+const SLOT_KEEP_BYTES: usize = 64 << 10;
 /// Records per parallel task within a chunk.
 const TASK: usize = 128;
 
@@ -55,6 +68,9 @@ pub struct BatchOptions {
     pub sensitivities: bool,
     /// Solve each chunk in parallel (output order is the same either way).
     pub parallel: bool,
+    /// Neutralise input cells (and header names) that a spreadsheet would
+    /// read as a formula: see [`crate::report::csv::push_cell_bytes`].
+    pub safe_cells: bool,
 }
 
 impl Default for BatchOptions {
@@ -62,6 +78,7 @@ impl Default for BatchOptions {
         BatchOptions {
             sensitivities: false,
             parallel: true,
+            safe_cells: false,
         }
     }
 }
@@ -99,8 +116,14 @@ impl BatchSummary {
 /// Why a batch stopped (a bad row never stops it).
 #[derive(Debug)]
 pub enum BatchError {
-    /// The input could not be read.
-    Read(Error),
+    /// The input could not be read on, or ended inside a quoted field; the
+    /// rows before the failure were written (`done` counts them).
+    Read {
+        /// What went wrong.
+        error: ReadError,
+        /// The rows read and written before the stop.
+        done: BatchSummary,
+    },
     /// The output could not be written.
     Write(std::io::Error),
 }
@@ -108,7 +131,7 @@ pub enum BatchError {
 impl std::fmt::Display for BatchError {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         match self {
-            BatchError::Read(e) => write!(f, "{e}"),
+            BatchError::Read { error, .. } => write!(f, "{error}"),
             BatchError::Write(e) => write!(f, "cannot write the output: {e}"),
         }
     }
@@ -118,7 +141,7 @@ impl std::error::Error for BatchError {}
 
 /// A batch input with its header read.
 pub struct Batch<R> {
-    reader: csv::Reader<R>,
+    reader: RecordReader<R>,
     layout: Layout,
     unknown: Vec<String>,
     empty: bool,
@@ -126,36 +149,53 @@ pub struct Batch<R> {
 
 /// The header: what each column is (shared by the parallel row solvers).
 struct Layout {
-    /// Header cells as written (BOM removed).
+    /// Header cells as text (BOM removed, invalid UTF-8 replaced), for
+    /// matching and messages.
     names: Vec<String>,
+    /// Header cells as read (BOM removed), for the output.
+    raw_names: Vec<Vec<u8>>,
     columns: Vec<Column>,
     /// Whether a launch-site latitude column is present (then every output
     /// row carries the site columns); decided once from the header.
     site: bool,
 }
 
-impl<R: Read> Batch<R> {
+impl<R: BufRead> Batch<R> {
     /// Reads the header.
     ///
     /// # Errors
-    /// [`Error::Usage`] when the input cannot be read or a solve input
-    /// appears twice in the header.
+    /// [`Error::Usage`] when the input cannot be read, the header is longer
+    /// than [`MAX_RECORD_BYTES`] or wider than [`MAX_COLUMNS`], or a solve
+    /// input appears twice in the header.
     pub fn open(input: R) -> Result<Batch<R>, Error> {
-        let mut reader = csv::ReaderBuilder::new()
-            .has_headers(false)
-            .flexible(true)
-            .from_reader(input);
-        let mut first = csv::ByteRecord::new();
+        let mut reader = RecordReader::new(input, MAX_COLUMNS + 1);
+        let mut first = RawRecord::new();
         let has_header = reader
-            .read_byte_record(&mut first)
-            .map_err(|e| Error::Usage(format!("cannot read the batch input: {e}")))?;
-        let names: Vec<String> = first
-            .iter()
-            .map(|f| {
-                String::from_utf8_lossy(f)
-                    .trim_start_matches('\u{feff}')
-                    .to_string()
+            .read(&mut first)
+            .map_err(|e| Error::Usage(format!("batch header: {e}")))?;
+        if first.is_oversized() {
+            return Err(Error::Usage(format!(
+                "batch header (line {}) is longer than {MAX_RECORD_BYTES} bytes: expected a header of column names",
+                first.first_line()
+            )));
+        }
+        if first.len() > MAX_COLUMNS {
+            return Err(Error::Usage(format!(
+                "batch header has {} columns: expected at most {MAX_COLUMNS}",
+                first.len()
+            )));
+        }
+        let raw_names: Vec<Vec<u8>> = (0..first.len())
+            .map(|i| {
+                let f = first.get(i).unwrap_or_default();
+                f.strip_prefix(b"\xef\xbb\xbf".as_slice())
+                    .unwrap_or(f)
+                    .to_vec()
             })
+            .collect();
+        let names: Vec<String> = raw_names
+            .iter()
+            .map(|f| String::from_utf8_lossy(f).into_owned())
             .collect();
         let mut columns = Vec::with_capacity(names.len());
         let mut unknown = Vec::new();
@@ -186,9 +226,11 @@ impl<R: Read> Batch<R> {
             }
             columns.push(col);
         }
+        reader.set_max_fields(columns.len() + 1);
         Ok(Batch {
             reader,
             layout: Layout {
+                raw_names,
                 site: columns
                     .iter()
                     .any(|c| matches!(c, Column::Input(k) if k == "latitude")),
@@ -237,27 +279,43 @@ impl<R: Read> Batch<R> {
         progress: &mut dyn FnMut(u64, u64),
     ) -> Result<BatchSummary, BatchError> {
         let mut head = Vec::new();
-        let mut rec = Record::new(&mut head);
-        for c in self.output_columns(opts.sensitivities) {
-            rec.text(&c);
+        let width = self.layout.raw_names.len();
+        for (i, c) in self.output_columns(opts.sensitivities).iter().enumerate() {
+            if i > 0 {
+                head.push(b',');
+            }
+            match self.layout.raw_names.get(i) {
+                Some(raw) if i < width => push_cell_bytes(&mut head, raw, opts.safe_cells),
+                _ => push_cell_bytes(&mut head, c.as_bytes(), false),
+            }
         }
-        rec.end();
+        head.push(b'\n');
         out.write_all(&head).map_err(BatchError::Write)?;
         let mut total = BatchSummary::default();
-        let mut pool: Vec<csv::ByteRecord> = Vec::new();
+        let mut pool: Vec<RawRecord> = Vec::new();
+        let mut stop = None;
         loop {
             let mut n = 0;
-            while n < BATCH_CHUNK {
+            let mut held = 0;
+            let mut at_end = false;
+            while n < BATCH_CHUNK && held < POOL_BYTES {
                 if pool.len() == n {
-                    pool.push(csv::ByteRecord::new());
+                    pool.push(RawRecord::new());
                 }
-                let more = self.reader.read_byte_record(&mut pool[n]).map_err(|e| {
-                    BatchError::Read(Error::Usage(format!("cannot read the batch input: {e}")))
-                })?;
-                if !more {
-                    break;
+                match self.reader.read(&mut pool[n]) {
+                    Ok(true) => {
+                        held += pool[n].held_bytes();
+                        n += 1;
+                    }
+                    Ok(false) => {
+                        at_end = true;
+                        break;
+                    }
+                    Err(e) => {
+                        stop = Some(e);
+                        break;
+                    }
                 }
-                n += 1;
             }
             if n == 0 {
                 break;
@@ -279,14 +337,20 @@ impl<R: Read> Batch<R> {
                 out.write_all(&bytes).map_err(BatchError::Write)?;
                 total.add(&counts);
             }
-            let bytes_read = self.reader.position().byte();
+            for r in &mut pool[..n] {
+                r.shrink(SLOT_KEEP_BYTES);
+            }
+            let bytes_read = self.reader.bytes_read();
             progress(total.rows_read, bytes_read);
-            if n < BATCH_CHUNK {
+            if at_end || stop.is_some() {
                 break;
             }
         }
         out.flush().map_err(BatchError::Write)?;
-        Ok(total)
+        match stop {
+            Some(error) => Err(BatchError::Read { error, done: total }),
+            None => Ok(total),
+        }
     }
 }
 
@@ -297,11 +361,7 @@ impl Layout {
         self.site
     }
 
-    fn solve_group(
-        &self,
-        group: &[csv::ByteRecord],
-        opts: &BatchOptions,
-    ) -> (Vec<u8>, BatchSummary) {
+    fn solve_group(&self, group: &[RawRecord], opts: &BatchOptions) -> (Vec<u8>, BatchSummary) {
         let mut buf = Vec::with_capacity(group.len() * 256);
         let mut counts = BatchSummary::default();
         for r in group {
@@ -321,21 +381,20 @@ impl Layout {
     /// else the class of its failure, and the number of rows written.
     fn solve_row(
         &self,
-        r: &csv::ByteRecord,
+        r: &RawRecord,
         opts: &BatchOptions,
         buf: &mut Vec<u8>,
     ) -> (Option<ErrorClass>, u64) {
         let width = self.columns.len();
-        let line = r.position().map(|p| p.line()).unwrap_or(0);
-        // The input part of every output row: the cells as read, padded or
-        // cut to the header's width.
+        // The input part of every output row: the cells as read (bytes,
+        // invalid UTF-8 kept), padded or cut to the header's width.
         let mut prefix = Vec::with_capacity(128);
         for i in 0..width {
             if i > 0 {
                 prefix.push(b',');
             }
             if let Some(cell) = r.get(i) {
-                push_csv_text(&mut prefix, &String::from_utf8_lossy(cell));
+                push_cell_bytes(&mut prefix, cell, opts.safe_cells);
             }
         }
         if width > 0 {
@@ -351,7 +410,7 @@ impl Layout {
             rec.end();
             (Some(e.class()), 1)
         };
-        match self.problem_of(r, line) {
+        match self.problem_of(r) {
             Err(e) => fail(buf, &e),
             Ok((inputs, branch)) => {
                 let solved = solve_inputs(&inputs);
@@ -385,28 +444,45 @@ impl Layout {
     }
 
     /// The named inputs and branch choice of one record.
-    fn problem_of(&self, r: &csv::ByteRecord, line: u64) -> Result<(Inputs, BranchChoice), Error> {
+    fn problem_of(&self, r: &RawRecord) -> Result<(Inputs, BranchChoice), Error> {
         let width = self.columns.len();
+        let line = if r.first_line() == r.last_line() {
+            format!("line {}", r.first_line())
+        } else {
+            format!(
+                "lines {}-{} (one record: a quoted field holds line breaks)",
+                r.first_line(),
+                r.last_line()
+            )
+        };
+        if r.is_oversized() {
+            return Err(Error::Usage(format!(
+                "{line}: the record is longer than {MAX_RECORD_BYTES} bytes: not read (expected at most {MAX_RECORD_BYTES})"
+            )));
+        }
         if r.len() < width {
             return Err(Error::Usage(format!(
-                "line {line} has {} field{} but the header has {width}: a short row (give every column a cell, empty for not given)",
+                "{line} has {} field{} but the header has {width}: a short row (give every column a cell, empty for not given)",
                 r.len(),
                 if r.len() == 1 { "" } else { "s" }
             )));
         }
         if r.len() > width {
             return Err(Error::Usage(format!(
-                "line {line} has {} fields but the header has {width}: the extra cells are under no column",
+                "{line} has {} fields but the header has {width}: the extra cells are under no column",
                 r.len()
             )));
         }
         let mut inputs = Inputs::new();
         let mut branch = BranchChoice::Both;
         for (i, col) in self.columns.iter().enumerate() {
+            if *col == Column::Carried {
+                continue; // kept as read, whatever its bytes
+            }
             let cell = r.get(i).unwrap_or_default();
             let text = std::str::from_utf8(cell).map_err(|_| {
                 Error::Usage(format!(
-                    "line {line}: column '{}' is not valid UTF-8 text",
+                    "{line}: column '{}' is not valid UTF-8 text",
                     self.names[i]
                 ))
             })?;
@@ -431,8 +507,8 @@ mod tests {
         let unknown = batch.unknown_columns().to_vec();
         let mut out = Vec::new();
         let opts = BatchOptions {
-            sensitivities: false,
             parallel,
+            ..BatchOptions::default()
         };
         let s = batch.run(&mut out, &opts, &mut |_, _| {}).unwrap();
         (String::from_utf8(out).unwrap(), s, unknown)

@@ -2,6 +2,7 @@
 //! codes: 0 solved, 2 usage or unparseable value, 3 infeasible.
 
 mod cli;
+mod diag;
 
 use burnout::ErrorClass;
 use clap::Parser;
@@ -28,32 +29,58 @@ fn one_line(text: &str) -> String {
     }
 }
 
+/// Removes any temporary output file on SIGINT, SIGTERM or SIGHUP, then
+/// ends the process as the signal would have (only SIGKILL, which cannot
+/// be caught, can leave a temporary file behind).
+fn remove_temporaries_on_signals() {
+    use signal_hook::consts::{SIGHUP, SIGINT, SIGTERM};
+    let Ok(mut signals) = signal_hook::iterator::Signals::new([SIGINT, SIGTERM, SIGHUP]) else {
+        return;
+    };
+    std::thread::spawn(move || {
+        if let Some(sig) = signals.forever().next() {
+            burnout::output::cleanup_then(|| {
+                let _ = signal_hook::low_level::emulate_default_handler(sig);
+                std::process::exit(128 + sig);
+            });
+        }
+    });
+}
+
 fn main() -> ExitCode {
+    diag::check_standard_streams();
+    remove_temporaries_on_signals();
     let cli = match cli::Cli::try_parse() {
         Ok(c) => c,
         Err(e) => {
             use clap::error::ErrorKind;
             if matches!(e.kind(), ErrorKind::DisplayHelp | ErrorKind::DisplayVersion) {
-                let _ = e.print();
-                return ExitCode::SUCCESS;
+                // Help asked for is the run's output: losing it is an error.
+                return match cli::emit(e.render().to_string().as_bytes()) {
+                    Ok(()) => ExitCode::SUCCESS,
+                    Err(e) => {
+                        diag::line(&format!("error: {e}"));
+                        ExitCode::from(2)
+                    }
+                };
             }
             if e.kind() == ErrorKind::DisplayHelpOnMissingArgumentOrSubcommand {
-                eprintln!(
-                    "error: missing subcommand: expected solve, scan, batch or budget (see 'burnout --help')"
+                diag::line(
+                    "error: missing subcommand: expected solve, scan, batch or budget (see 'burnout --help')",
                 );
                 return ExitCode::from(2);
             }
-            eprintln!(
+            diag::line(&format!(
                 "error: {} (see 'burnout --help')",
                 one_line(&e.render().to_string())
-            );
+            ));
             return ExitCode::from(2);
         }
     };
     match cli::run(cli) {
         Ok(code) => ExitCode::from(code as u8),
         Err(e) => {
-            eprintln!("error: {}", e.to_string().replace('\n', " "));
+            diag::line(&format!("error: {}", e.to_string().replace('\n', " ")));
             match e.class() {
                 ErrorClass::Usage => ExitCode::from(2),
                 ErrorClass::Infeasible => ExitCode::from(3),

@@ -3,22 +3,75 @@
 //! This is the one library module that touches the file system. An
 //! [`AtomicFile`] writes into a temporary file beside the target (same
 //! directory, so the final rename stays on one file system) and renames it
-//! into place on [`AtomicFile::commit`]. Dropped without a commit (an error
-//! part-way, a panic), it deletes the temporary file. A process killed
-//! outright leaves at most a hidden `.NAME.*.tmp` beside the target, never a
-//! partial file under the final name.
+//! into place on [`AtomicFile::commit`] (or, for several files that belong
+//! together, [`commit_all`]). Dropped without a commit (an error part-way, a
+//! panic), it deletes the temporary file. Every temporary file is listed in a
+//! process-wide register so that a signal handler can delete it
+//! ([`cleanup_then`]); only a kill that cannot be caught (SIGKILL, a power
+//! cut) can leave a hidden `.NAME.*.tmp` beside the target, never a partial
+//! file under the final name.
+//!
+//! Destinations (the rules, also in the README):
+//! - the destination is identified by its resolved path: symbolic links
+//!   followed, `..` and links in the directory part resolved, so two flags
+//!   naming one file through different spellings are caught by comparing
+//!   [`AtomicFile::path`];
+//! - a symbolic link is followed only when it belongs to the user running
+//!   the tool; a link owned by anyone else is refused (a link planted in a
+//!   shared directory cannot redirect a privileged run);
+//! - a dangling link is never followed: nothing is created through it;
+//! - with `--force` an existing file is replaced by a new file that keeps
+//!   the old one's permission bits (and its owner and group where the run
+//!   may set them);
+//! - an existing device or pipe (e.g. `/dev/null`) is written directly.
 
 use crate::error::Error;
 use std::fs::File;
 use std::io::Write;
 use std::path::{Path, PathBuf};
+use std::sync::{Mutex, MutexGuard};
+
+/// Temporary files that exist now (created, not yet renamed or removed).
+static PENDING: Mutex<Vec<PathBuf>> = Mutex::new(Vec::new());
+
+fn pending() -> MutexGuard<'static, Vec<PathBuf>> {
+    PENDING.lock().unwrap_or_else(|e| e.into_inner())
+}
+
+fn forget(list: &mut Vec<PathBuf>, path: &Path) {
+    if let Some(i) = list.iter().position(|p| p == path) {
+        list.swap_remove(i);
+    }
+}
+
+/// Removes every temporary file this process has not yet renamed or
+/// removed, then runs `then` while still holding the register, so no new
+/// temporary file can appear and no rename can happen before `then` ends
+/// (a signal handler passes a function that ends the process).
+pub fn cleanup_then<F: FnOnce()>(then: F) {
+    let mut list = pending();
+    for p in list.drain(..) {
+        let _ = std::fs::remove_file(&p);
+    }
+    then();
+}
+
+/// Longest file-name component most file systems accept, bytes.
+const NAME_MAX: usize = 255;
+/// Bytes a temporary name adds around the target's name: `.` before it,
+/// and `.` + 6 random characters + `.tmp` after it.
+const TEMP_EXTRA: usize = 1 + 1 + 6 + 4;
+/// Bytes a backup name adds: `.`, `.`, up to 6 digits, `-N.bak.tmp`.
+const BACKUP_EXTRA: usize = 1 + 1 + 6 + 11;
+/// Most symbolic links followed before a destination counts as a loop.
+const MAX_LINKS: usize = 40;
 
 /// Where the bytes go: a temporary file renamed into place, or, for an
 /// existing device or pipe (e.g. `/dev/null`, a FIFO), the target itself:
 /// those hold no data that could be clobbered or left partial.
 #[derive(Debug)]
 enum Sink {
-    Temp(tempfile::NamedTempFile),
+    Temp(Option<tempfile::NamedTempFile>),
     Direct(File),
 }
 
@@ -26,31 +79,112 @@ enum Sink {
 #[derive(Debug)]
 pub struct AtomicFile {
     sink: Sink,
+    /// The resolved destination.
     path: PathBuf,
+    /// The destination as the user wrote it (for messages).
+    shown: String,
     force: bool,
     flag: &'static str,
 }
 
-/// The path a write to `path` should replace: a symbolic link is followed
-/// (to its target, even a dangling one) so that the link itself survives.
-fn resolve_links(path: &Path) -> PathBuf {
+#[cfg(unix)]
+fn effective_uid() -> u32 {
+    // SAFETY: geteuid has no preconditions and cannot fail.
+    unsafe { libc::geteuid() }
+}
+
+/// The destination a write to `path` should replace: links followed (only
+/// links of the running user, never a dangling one), the directory part
+/// resolved. Returns the resolved path and whether the user's path was a
+/// link.
+fn resolve(path: &Path, flag: &str) -> Result<PathBuf, Error> {
+    let shown = path.display();
     let mut p = path.to_path_buf();
-    for _ in 0..40 {
-        match std::fs::symlink_metadata(&p) {
-            Ok(m) if m.file_type().is_symlink() => match std::fs::read_link(&p) {
-                Ok(target) => {
-                    p = if target.is_absolute() {
-                        target
-                    } else {
-                        p.parent().unwrap_or(Path::new(".")).join(target)
-                    };
+    let mut hops = 0;
+    loop {
+        let meta = match std::fs::symlink_metadata(&p) {
+            Ok(m) => m,
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+                if hops > 0 {
+                    return Err(Error::Usage(format!(
+                        "{flag} '{shown}' is a symbolic link to '{}', which does not exist: \
+                         refusing to create a file through a dangling link (remove the link or name the file itself)",
+                        p.display()
+                    )));
                 }
-                Err(_) => break,
-            },
-            _ => break,
+                break;
+            }
+            Err(e) => {
+                return Err(Error::Usage(format!("cannot write {flag} '{shown}': {e}")));
+            }
+        };
+        if !meta.file_type().is_symlink() {
+            break;
         }
+        hops += 1;
+        if hops > MAX_LINKS {
+            return Err(Error::Usage(format!(
+                "{flag} '{shown}' is a loop of symbolic links: expected a file name"
+            )));
+        }
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::MetadataExt;
+            let me = effective_uid();
+            if meta.uid() != me {
+                return Err(Error::Usage(format!(
+                    "{flag} '{shown}' is (or goes through) a symbolic link '{}' owned by another user (uid {}): \
+                     refusing to follow it (name the file itself)",
+                    p.display(),
+                    meta.uid()
+                )));
+            }
+        }
+        let target = std::fs::read_link(&p)
+            .map_err(|e| Error::Usage(format!("cannot write {flag} '{shown}': {e}")))?;
+        p = if target.is_absolute() {
+            target
+        } else {
+            p.parent().unwrap_or(Path::new(".")).join(target)
+        };
     }
-    p
+    // The directory part, resolved (`..`, links), and the last name as is.
+    let name = match p.file_name() {
+        Some(n) if !p.as_os_str().to_string_lossy().ends_with('/') => n.to_os_string(),
+        _ => {
+            return Err(Error::Usage(format!(
+                "{flag} '{shown}' is a directory: expected a file name"
+            )))
+        }
+    };
+    let dir = match p.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    let dir = std::fs::canonicalize(&dir).map_err(|e| {
+        Error::Usage(format!(
+            "cannot write {flag} '{shown}': directory '{}': {e}",
+            dir.display()
+        ))
+    })?;
+    Ok(dir.join(name))
+}
+
+/// The resolved path of an existing input file (for comparing it with an
+/// output's [`AtomicFile::path`]); `None` if it cannot be resolved.
+pub fn resolved_input(path: &Path) -> Option<PathBuf> {
+    std::fs::canonicalize(path).ok()
+}
+
+/// A temporary-file prefix for `name` that keeps the whole temporary name
+/// within [`NAME_MAX`] bytes: a long name is cut (at a character boundary).
+fn temp_prefix(name: &str, extra: usize) -> String {
+    let room = NAME_MAX - extra;
+    let mut end = name.len().min(room);
+    while !name.is_char_boundary(end) {
+        end -= 1;
+    }
+    format!(".{}.", &name[..end])
 }
 
 impl AtomicFile {
@@ -59,13 +193,20 @@ impl AtomicFile {
     ///
     /// # Errors
     /// [`Error::Usage`] naming the flag and the path when the file exists
-    /// (without `force`), is a directory, or its directory cannot take a
-    /// temporary file.
+    /// (without `force`), is a directory, is a dangling symbolic link, a
+    /// link of another user or a loop of links, or its directory cannot
+    /// take a temporary file.
     pub fn create(path: &Path, force: bool, flag: &'static str) -> Result<AtomicFile, Error> {
-        let shown = path.display();
-        let target = resolve_links(path);
-        if let Ok(meta) = std::fs::metadata(&target) {
-            if !meta.is_file() && !meta.is_dir() {
+        let shown = path.display().to_string();
+        let target = resolve(path, flag)?;
+        let existing = std::fs::metadata(&target).ok();
+        if let Some(meta) = &existing {
+            if meta.is_dir() {
+                return Err(Error::Usage(format!(
+                    "{flag} '{shown}' is a directory: expected a file name"
+                )));
+            }
+            if !meta.is_file() {
                 // A device or pipe: write straight into it.
                 let file = std::fs::OpenOptions::new()
                     .write(true)
@@ -73,57 +214,65 @@ impl AtomicFile {
                     .map_err(|e| Error::Usage(format!("cannot write {flag} '{shown}': {e}")))?;
                 return Ok(AtomicFile {
                     sink: Sink::Direct(file),
-                    path: path.to_path_buf(),
+                    path: target,
+                    shown,
                     force,
                     flag,
                 });
             }
+            if !force {
+                return Err(Error::Usage(format!(
+                    "{flag} '{shown}' already exists: give --force to replace it"
+                )));
+            }
         }
-        let path = target.as_path();
-        if path.is_dir() {
-            return Err(Error::Usage(format!(
-                "{flag} '{shown}' is a directory: expected a file name"
-            )));
-        }
-        if !force && path.exists() {
-            return Err(Error::Usage(format!(
-                "{flag} '{shown}' already exists: give --force to replace it"
-            )));
-        }
-        let dir = match path.parent() {
-            Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
-            _ => PathBuf::from("."),
-        };
-        let name = path
+        let dir = target.parent().unwrap_or(Path::new(".")).to_path_buf();
+        let name = target
             .file_name()
             .map(|n| n.to_string_lossy().into_owned())
             .unwrap_or_else(|| "output".into());
-        let prefix = format!(".{name}.");
+        let prefix = temp_prefix(&name, TEMP_EXTRA);
         let mut builder = tempfile::Builder::new();
         builder.prefix(&prefix).suffix(".tmp");
-        // Temporary files are private (0600) by default; the result is an
+        // Temporary files are private (0600) by default; a new result is an
         // ordinary file, so ask for 0666 and let the umask decide, as for
-        // any file the user creates.
+        // any file the user creates. A replaced file's bits are kept below.
         #[cfg(unix)]
         {
             use std::os::unix::fs::PermissionsExt;
             builder.permissions(std::fs::Permissions::from_mode(0o666));
         }
+        let mut list = pending();
         let temp = builder.tempfile_in(&dir).map_err(|e| {
             Error::Usage(format!(
                 "cannot write {flag} '{shown}': cannot create a file in '{}': {e}",
                 dir.display()
             ))
         })?;
+        list.push(temp.path().to_path_buf());
+        drop(list);
+        #[cfg(unix)]
+        if let Some(meta) = &existing {
+            use std::os::unix::fs::{MetadataExt, PermissionsExt};
+            // Owner and group first (changing them may clear set-id bits),
+            // then the mode. Only a privileged run may give a file away, so
+            // a failed chown is not an error: the file is the user's own.
+            let _ = std::os::unix::fs::fchown(temp.as_file(), Some(meta.uid()), Some(meta.gid()));
+            let _ = temp
+                .as_file()
+                .set_permissions(std::fs::Permissions::from_mode(meta.mode() & 0o7777));
+        }
         Ok(AtomicFile {
-            sink: Sink::Temp(temp),
-            path: path.to_path_buf(),
+            sink: Sink::Temp(Some(temp)),
+            path: target,
+            shown,
             force,
             flag,
         })
     }
 
-    /// The final path.
+    /// The final path, resolved (links followed, `..` resolved): two files
+    /// with equal paths are one file.
     pub fn path(&self) -> &Path {
         &self.path
     }
@@ -132,17 +281,57 @@ impl AtomicFile {
     /// for a device or pipe.
     pub fn temp_path(&self) -> &Path {
         match &self.sink {
-            Sink::Temp(t) => t.path(),
-            Sink::Direct(_) => &self.path,
+            Sink::Temp(Some(t)) => t.path(),
+            _ => &self.path,
         }
     }
 
     /// The file to write into.
     pub fn file(&mut self) -> &mut File {
         match &mut self.sink {
-            Sink::Temp(t) => t.as_file_mut(),
+            Sink::Temp(Some(t)) => t.as_file_mut(),
+            Sink::Temp(None) => unreachable!("temporary file used after commit"),
             Sink::Direct(f) => f,
         }
+    }
+
+    fn write_error(&self, e: impl std::fmt::Display) -> Error {
+        Error::Usage(format!("cannot write {} '{}': {e}", self.flag, self.shown))
+    }
+
+    fn flush(&mut self) -> Result<(), Error> {
+        let r = self.file().flush();
+        r.map_err(|e| self.write_error(e))
+    }
+
+    /// Renames the temporary file into place (already flushed).
+    fn rename(&mut self) -> Result<(), Error> {
+        let mut list = pending();
+        let Sink::Temp(slot) = &mut self.sink else {
+            return Ok(());
+        };
+        let Some(temp) = slot.take() else {
+            return Ok(());
+        };
+        let temp_path = temp.path().to_path_buf();
+        let result = if self.force {
+            temp.persist(&self.path).map(|_| ())
+        } else {
+            temp.persist_noclobber(&self.path).map(|_| ())
+        };
+        // On failure the error owns the temporary file and removes it.
+        forget(&mut list, &temp_path);
+        drop(list);
+        result.map_err(|e| {
+            if e.error.kind() == std::io::ErrorKind::AlreadyExists {
+                Error::Usage(format!(
+                    "{} '{}' already exists: give --force to replace it",
+                    self.flag, self.shown
+                ))
+            } else {
+                self.write_error(&e.error)
+            }
+        })
     }
 
     /// Flushes and renames the temporary file to the final name. Without
@@ -151,30 +340,108 @@ impl AtomicFile {
     /// # Errors
     /// [`Error::Usage`] naming the flag and path when flushing or renaming fails.
     pub fn commit(mut self) -> Result<(), Error> {
-        let shown = self.path.display().to_string();
-        let flag = self.flag;
-        self.file()
-            .flush()
-            .map_err(|e| Error::Usage(format!("cannot write {flag} '{shown}': {e}")))?;
-        let temp = match self.sink {
-            Sink::Direct(_) => return Ok(()),
-            Sink::Temp(t) => t,
-        };
-        let result = if self.force {
-            temp.persist(&self.path).map(|_| ())
-        } else {
-            temp.persist_noclobber(&self.path).map(|_| ())
-        };
-        result.map_err(|e| {
-            if e.error.kind() == std::io::ErrorKind::AlreadyExists {
-                Error::Usage(format!(
-                    "{flag} '{shown}' already exists: give --force to replace it"
-                ))
-            } else {
-                Error::Usage(format!("cannot write {flag} '{shown}': {}", e.error))
-            }
-        })
+        self.flush()?;
+        self.rename()
     }
+}
+
+impl Drop for AtomicFile {
+    fn drop(&mut self) {
+        if let Sink::Temp(slot) = &mut self.sink {
+            if let Some(temp) = slot.take() {
+                let mut list = pending();
+                let path = temp.path().to_path_buf();
+                drop(temp); // removes the file
+                forget(&mut list, &path);
+            }
+        }
+    }
+}
+
+/// Commits several files that belong together: all of them, or (when one
+/// fails) none. Every file is flushed before any is renamed; if a rename
+/// fails, the files already renamed are undone (a new file removed, a
+/// replaced file restored from a hard-linked copy taken just before).
+///
+/// # Errors
+/// The first file's error, as [`AtomicFile::commit`].
+pub fn commit_all(mut files: Vec<AtomicFile>) -> Result<(), Error> {
+    for f in files.iter_mut() {
+        f.flush()?;
+    }
+    // (destination, copy of what it replaced)
+    let mut done: Vec<(PathBuf, Option<PathBuf>)> = Vec::new();
+    let mut failure = None;
+    for f in files.iter_mut() {
+        let backup = if matches!(f.sink, Sink::Temp(_)) && f.path.is_file() {
+            backup_of(&f.path)
+        } else {
+            None
+        };
+        let direct = matches!(f.sink, Sink::Direct(_));
+        match f.rename() {
+            Ok(()) if direct => {}
+            Ok(()) => done.push((f.path.clone(), backup)),
+            Err(e) => {
+                if let Some(b) = backup {
+                    remove_registered(&b);
+                }
+                failure = Some(e);
+                break;
+            }
+        }
+    }
+    let Some(e) = failure else {
+        for (_, b) in done {
+            if let Some(b) = b {
+                remove_registered(&b);
+            }
+        }
+        return Ok(());
+    };
+    for (path, backup) in done.into_iter().rev() {
+        let mut list = pending();
+        match backup {
+            Some(b) => {
+                let _ = std::fs::rename(&b, &path);
+                forget(&mut list, &b);
+            }
+            None => {
+                let _ = std::fs::remove_file(&path);
+            }
+        }
+    }
+    Err(e)
+}
+
+/// A hard link to `path` under a hidden name beside it (registered for
+/// signal cleanup); `None` where hard links are not possible.
+fn backup_of(path: &Path) -> Option<PathBuf> {
+    let dir = path.parent()?;
+    let name = path.file_name()?.to_string_lossy().into_owned();
+    let mut list = pending();
+    for i in 0..16u32 {
+        let candidate = dir.join(format!(
+            "{}{}-{i}.bak.tmp",
+            temp_prefix(&name, BACKUP_EXTRA),
+            std::process::id() % 1_000_000
+        ));
+        match std::fs::hard_link(path, &candidate) {
+            Ok(()) => {
+                list.push(candidate.clone());
+                return Some(candidate);
+            }
+            Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => continue,
+            Err(_) => return None,
+        }
+    }
+    None
+}
+
+fn remove_registered(path: &Path) {
+    let mut list = pending();
+    let _ = std::fs::remove_file(path);
+    forget(&mut list, path);
 }
 
 #[cfg(test)]

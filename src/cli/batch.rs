@@ -1,6 +1,7 @@
 //! `burnout batch`: one targeting problem per row of a CSV file, streamed.
 
 use super::progress::Progress;
+use crate::diag;
 use burnout::batch::{Batch, BatchError, BatchOptions};
 use burnout::output::AtomicFile;
 use burnout::Error;
@@ -14,7 +15,8 @@ pub struct Args {
     /// optional branch), one case per row; '-' reads standard input.
     #[arg(value_name = "INPUT.csv")]
     input: PathBuf,
-    /// Write the results to FILE instead of standard output (via a temporary file, then renamed).
+    /// Write the results to FILE instead of standard output (via a temporary file, then renamed);
+    /// '-' is standard output.
     #[arg(long, value_name = "FILE")]
     out: Option<PathBuf>,
     /// Replace an existing --out file.
@@ -23,11 +25,19 @@ pub struct Args {
     /// Add the 15 sensitivity columns d_<row>_d_<col>.
     #[arg(long)]
     sensitivities: bool,
+    /// Neutralise input cells (id, carried columns, header names) that a spreadsheet would run as
+    /// a formula (starting with =, +, -, @): prefix them with '. Plain numbers are kept.
+    #[arg(long)]
+    safe_cells: bool,
 }
 
 /// Runs the batch; returns the exit code (3 when any row did not solve).
 pub fn run(args: Args) -> Result<i32, Error> {
     let shown = args.input.display().to_string();
+    let out_path = super::out_path(args.out.as_deref());
+    if out_path.is_none() {
+        super::require_stdout()?;
+    }
     let (input, size): (Box<dyn Read>, u64) = if shown == "-" {
         (Box::new(std::io::stdin().lock()), 0)
     } else {
@@ -41,52 +51,45 @@ pub fn run(args: Args) -> Result<i32, Error> {
         let size = file.metadata().map(|m| m.len()).unwrap_or(0);
         (Box::new(file), size)
     };
-    let input = LineCap {
-        inner: input,
-        since_newline: 0,
-    };
     let batch = Batch::open(BufReader::with_capacity(1 << 16, input))
         .map_err(|e| Error::Usage(format!("{e} ('{shown}')")))?;
-    if let (Some(out), false) = (&args.out, shown == "-") {
-        let same = match (
-            std::fs::canonicalize(out),
-            std::fs::canonicalize(&args.input),
-        ) {
-            (Ok(a), Ok(b)) => a == b,
-            _ => false,
-        };
-        if same {
+    // Claim the output before the work, so a long run cannot end on
+    // "file exists".
+    let mut out_file = out_path
+        .map(|p| AtomicFile::create(p, args.force, "--out"))
+        .transpose()?;
+    if let (Some(f), false) = (&out_file, shown == "-") {
+        if burnout::output::resolved_input(&args.input).as_deref() == Some(f.path()) {
             return Err(Error::Usage(format!(
-                "--out '{}' is the batch input: write the results to another file",
-                out.display()
+                "--out '{}' is the batch input '{shown}': write the results to another file",
+                args.out.as_deref().unwrap_or(f.path()).display()
             )));
         }
     }
-    // Claim the output before any warning, so that an error is the only line.
-    let mut out_file = args
-        .out
-        .as_deref()
-        .map(|p| AtomicFile::create(p, args.force, "--out"))
-        .transpose()?;
+    // Warnings wait for the end: a run that fails prints its error alone.
+    let mut warnings = Vec::new();
     if batch.is_empty() {
-        eprintln!("warning: '{shown}' is empty: no header and no rows");
+        warnings.push(format!(
+            "warning: '{shown}' is empty: no header and no rows"
+        ));
     }
     let unknown = batch.unknown_columns();
     if !unknown.is_empty() {
         let quoted: Vec<String> = unknown.iter().map(|c| format!("'{c}'")).collect();
         let many = unknown.len() > 1;
-        eprintln!(
+        warnings.push(format!(
             "warning: column{} {} {} not {}solve input{}: carried through to the output unchanged",
             if many { "s" } else { "" },
             quoted.join(", "),
             if many { "are" } else { "is" },
             if many { "" } else { "a " },
             if many { "s" } else { "" },
-        );
+        ));
     }
     let opts = BatchOptions {
         sensitivities: args.sensitivities,
         parallel: true,
+        safe_cells: args.safe_cells,
     };
     let mut progress = Progress::new(size, "bytes");
     let mut report = |_rows: u64, bytes: u64| progress.update(bytes);
@@ -103,6 +106,16 @@ pub fn run(args: Args) -> Result<i32, Error> {
         ),
     };
     progress.finish();
+    let dest = match &out_file {
+        Some(_) => format!(
+            "--out '{}'",
+            args.out
+                .as_deref()
+                .map(|p| p.display().to_string())
+                .unwrap_or_default()
+        ),
+        None => "standard output".into(),
+    };
     let summary = match result {
         Ok(s) => s,
         Err(BatchError::Write(e))
@@ -111,19 +124,32 @@ pub fn run(args: Args) -> Result<i32, Error> {
             return Ok(0)
         }
         Err(BatchError::Write(e)) => {
-            let dest = match &args.out {
-                Some(p) => format!("--out '{}'", p.display()),
-                None => "standard output".into(),
-            };
             return Err(Error::Usage(format!("cannot write {dest}: {e}")));
         }
-        Err(BatchError::Read(e)) => return Err(Error::Usage(format!("{e} ('{shown}')"))),
+        Err(BatchError::Read { error, done }) => {
+            // The stop must show: with --out nothing is left (the temporary
+            // file goes with `out_file`); on standard output the rows before
+            // the stop are there, and this line and exit 2 say it is cut short.
+            let written = match &out_file {
+                Some(_) => format!("nothing written to {dest}"),
+                None => format!(
+                    "standard output is incomplete: it holds the {} output rows of the {} input rows before it",
+                    done.rows_written, done.rows_read
+                ),
+            };
+            return Err(Error::Usage(format!(
+                "batch input '{shown}' {error}: the run stopped; {written}"
+            )));
+        }
     };
     if let Some(f) = out_file {
         f.commit()?;
     }
     let secs = progress.elapsed().as_secs_f64();
-    eprintln!(
+    for w in &warnings {
+        diag::line(w);
+    }
+    diag::line(&format!(
         "batch: {} rows read: {} solved, {} infeasible, {} invalid ({} output rows) in {:.2} s",
         summary.rows_read,
         summary.solved,
@@ -131,36 +157,6 @@ pub fn run(args: Args) -> Result<i32, Error> {
         summary.invalid,
         summary.rows_written,
         secs
-    );
+    ));
     Ok(if summary.all_solved() { 0 } else { 3 })
-}
-
-/// Longest input line accepted, bytes: a record held in memory is at most
-/// this big, so a file without line breaks cannot exhaust memory.
-const MAX_LINE_BYTES: usize = 16 << 20;
-
-/// A reader that fails once a line grows past [`MAX_LINE_BYTES`].
-struct LineCap<R> {
-    inner: R,
-    since_newline: usize,
-}
-
-impl<R: Read> Read for LineCap<R> {
-    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
-        let n = self.inner.read(buf)?;
-        for &b in &buf[..n] {
-            if b == b'\n' {
-                self.since_newline = 0;
-            } else {
-                self.since_newline += 1;
-                if self.since_newline > MAX_LINE_BYTES {
-                    return Err(std::io::Error::new(
-                        std::io::ErrorKind::InvalidData,
-                        format!("an input line is longer than {} MiB", MAX_LINE_BYTES >> 20),
-                    ));
-                }
-            }
-        }
-        Ok(n)
-    }
 }

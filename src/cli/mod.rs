@@ -196,14 +196,48 @@ impl ProblemArgs {
         match &self.case {
             None => Ok(flags),
             Some(path) => {
-                let text = std::fs::read_to_string(path).map_err(|e| {
-                    Error::Usage(format!("cannot read case file '{path}' for --case: {e}"))
-                })?;
+                let text = read_case_file(path)?;
                 let case = parse_case(&text, path)?;
                 Ok(overlay(case.inputs, &flags))
             }
         }
     }
+}
+
+/// Largest case file read, bytes: a case is a few hundred bytes, so 1 MiB
+/// is generous, and `--case /dev/zero` or a huge file cannot fill memory.
+pub const MAX_CASE_BYTES: u64 = 1 << 20;
+
+/// Reads a case file: a regular file of at most [`MAX_CASE_BYTES`], UTF-8.
+fn read_case_file(path: &str) -> Result<String, Error> {
+    use std::io::Read;
+    let fail =
+        |why: String| Error::Usage(format!("cannot read case file '{path}' for --case: {why}"));
+    let file = std::fs::File::open(path).map_err(|e| fail(e.to_string()))?;
+    let meta = file.metadata().map_err(|e| fail(e.to_string()))?;
+    if !meta.is_file() {
+        return Err(Error::Usage(format!(
+            "case file '{path}' for --case is not a regular file: expected a TOML file"
+        )));
+    }
+    if meta.len() > MAX_CASE_BYTES {
+        return Err(Error::Usage(format!(
+            "case file '{path}' for --case is {} bytes: expected at most {MAX_CASE_BYTES} bytes (1 MiB)",
+            meta.len()
+        )));
+    }
+    // The size can change between the check and the read: read one byte
+    // more than the cap at most.
+    let mut bytes = Vec::new();
+    file.take(MAX_CASE_BYTES + 1)
+        .read_to_end(&mut bytes)
+        .map_err(|e| fail(e.to_string()))?;
+    if bytes.len() as u64 > MAX_CASE_BYTES {
+        return Err(Error::Usage(format!(
+            "case file '{path}' for --case grew past {MAX_CASE_BYTES} bytes (1 MiB) while being read"
+        )));
+    }
+    String::from_utf8(bytes).map_err(|_| fail("not valid UTF-8 text".into()))
 }
 
 /// A flag given with an empty value is an error (an empty cell means "not
@@ -234,9 +268,26 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
     }
 }
 
+/// An error unless standard output can take the run's output: a run
+/// started with standard output closed (`>&-`) would lose it silently.
+pub fn require_stdout() -> Result<(), Error> {
+    if crate::diag::stdout_closed() {
+        return Err(Error::Usage(
+            "standard output is closed: nothing can be written (redirect it, or give --out where available)".into(),
+        ));
+    }
+    Ok(())
+}
+
+/// `--out -` means standard output: the path to write, or `None` for stdout.
+pub fn out_path(out: Option<&std::path::Path>) -> Option<&std::path::Path> {
+    out.filter(|p| p.as_os_str() != "-")
+}
+
 /// Writes a finished output to stdout; a closed pipe ends quietly.
 pub fn emit(bytes: &[u8]) -> Result<(), Error> {
     use std::io::Write;
+    require_stdout()?;
     let mut out = std::io::stdout().lock();
     match out.write_all(bytes).and_then(|_| out.flush()) {
         Ok(()) => Ok(()),

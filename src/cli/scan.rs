@@ -38,7 +38,8 @@ pub struct Args {
     /// Output format [default: csv for an --out ending in .csv, json for .json, else table].
     #[arg(long, value_enum)]
     format: Option<Format>,
-    /// Write the rows to FILE instead of standard output (via a temporary file, then renamed).
+    /// Write the rows to FILE instead of standard output (via a temporary file, then renamed);
+    /// '-' is standard output.
     #[arg(long, value_name = "FILE")]
     out: Option<PathBuf>,
     /// Replace an existing --out or --plot file.
@@ -77,11 +78,6 @@ fn format_for(format: Option<Format>, out: Option<&Path>) -> ScanFormat {
     }
 }
 
-fn same_file(a: &Path, b: &Path) -> bool {
-    let full = |p: &Path| std::path::absolute(p).unwrap_or_else(|_| p.to_path_buf());
-    full(a) == full(b)
-}
-
 /// Runs the scan; returns the exit code.
 pub fn run(args: Args) -> Result<i32, Error> {
     let inputs = args.problem.inputs()?;
@@ -94,21 +90,20 @@ pub fn run(args: Args) -> Result<i32, Error> {
             flags.join(", ")
         )));
     }
-    if let (Some(o), Some(p)) = (&args.out, &args.plot) {
-        if same_file(o, p) {
-            return Err(Error::Usage(format!(
-                "--out and --plot both name '{}': give two files",
-                o.display()
-            )));
-        }
+    if args.plot.as_deref().is_some_and(|p| p.as_os_str() == "-") {
+        return Err(Error::Usage(
+            "--plot '-': the figure needs a file name (FILE.svg)".into(),
+        ));
     }
     plan.check_structure()?;
-    let format = format_for(args.format, args.out.as_deref());
+    let out_path = super::out_path(args.out.as_deref());
+    let format = format_for(args.format, out_path);
+    if out_path.is_none() {
+        super::require_stdout()?;
+    }
     // Claim the output files before the work, so a long scan cannot end
     // on "file exists".
-    let mut out_file = args
-        .out
-        .as_deref()
+    let mut out_file = out_path
         .map(|p| AtomicFile::create(p, args.force, "--out"))
         .transpose()?;
     let mut plot_file = args
@@ -116,6 +111,34 @@ pub fn run(args: Args) -> Result<i32, Error> {
         .as_deref()
         .map(|p| AtomicFile::create(p, args.force, "--plot"))
         .transpose()?;
+    // One file under two names (`sub/../x`, a link) is caught on the
+    // resolved paths, before anything is written.
+    if let (Some(o), Some(p)) = (&out_file, &plot_file) {
+        if o.path() == p.path() {
+            return Err(Error::Usage(format!(
+                "--out '{}' and --plot '{}' are the same file '{}': give two files",
+                shown(args.out.as_deref()),
+                shown(args.plot.as_deref()),
+                o.path().display()
+            )));
+        }
+    }
+    if let Some(case) = &args.problem.case {
+        let case_path = burnout::output::resolved_input(Path::new(case));
+        for (flag, f, given) in [
+            ("--out", &out_file, args.out.as_deref()),
+            ("--plot", &plot_file, args.plot.as_deref()),
+        ] {
+            if let Some(f) = f {
+                if case_path.as_deref() == Some(f.path()) {
+                    return Err(Error::Usage(format!(
+                        "{flag} '{}' is the case file '{case}': write the results to another file",
+                        shown(given)
+                    )));
+                }
+            }
+        }
+    }
     let opts = ScanOptions {
         format,
         branch: args.branch.into(),
@@ -142,42 +165,53 @@ pub fn run(args: Args) -> Result<i32, Error> {
         Ok(r) => r,
         Err(e) if out_file.is_none() && e.kind() == std::io::ErrorKind::BrokenPipe => return Ok(0),
         Err(e) => {
-            let dest = match &args.out {
-                Some(p) => format!("--out '{}'", p.display()),
+            let dest = match &out_file {
+                Some(_) => format!("--out '{}'", shown(args.out.as_deref())),
                 None => "standard output".into(),
             };
             return Err(Error::Usage(format!("cannot write {dest}: {e}")));
         }
     };
-    if let Some(f) = out_file {
-        f.commit()?;
+    // The figure is written before either file is committed, and the two
+    // are committed together: both or neither.
+    let mut files: Vec<AtomicFile> = out_file.into_iter().collect();
+    if let Some(mut f) = plot_file.take() {
+        if let Some(data) = report.plot.as_ref() {
+            let given = shown(args.plot.as_deref());
+            let mut w = BufWriter::new(f.file());
+            burnout::report::plot::write_svg(&mut w, data)
+                .and_then(|_| w.flush())
+                .map_err(|e| Error::Usage(format!("cannot write --plot '{given}': {e}")))?;
+            drop(w);
+            files.push(f);
+        }
     }
-    if let (Some(mut f), Some(data)) = (plot_file.take(), report.plot.as_ref()) {
-        let shown = f.path().display().to_string();
-        burnout::report::plot::write_svg(&mut BufWriter::new(f.file()), data)
-            .map_err(|e| Error::Usage(format!("cannot write --plot '{shown}': {e}")))?;
-        f.commit()?;
-    }
+    burnout::output::commit_all(files)?;
     if report.solved == 0 {
-        eprintln!(
+        crate::diag::line(&format!(
             "error: no point of the scan solved ({} infeasible, {} invalid): see the status column",
             report.infeasible, report.invalid
-        );
+        ));
         // The rows (with their reasons) are the scan's result, so they are
         // written; the run as a whole did not solve: exit 3, like a batch
         // whose rows failed.
         return Ok(3);
     }
-    let table_on_stdout = format == ScanFormat::Table && args.out.is_none();
+    let table_on_stdout = format == ScanFormat::Table && out_path.is_none();
     if !table_on_stdout {
-        let mut err = std::io::stderr().lock();
         for (i, line) in plan.summary_lines(&report, opts.units).iter().enumerate() {
-            let _ = if i == 0 {
-                writeln!(err, "{line} in {:.2} s", progress.elapsed().as_secs_f64())
+            if i == 0 {
+                let secs = progress.elapsed().as_secs_f64();
+                crate::diag::line(&format!("{line} in {secs:.2} s"));
             } else {
-                writeln!(err, "{line}")
-            };
+                crate::diag::line(line);
+            }
         }
     }
     Ok(0)
+}
+
+/// A path flag as the user gave it, for messages.
+fn shown(p: Option<&Path>) -> String {
+    p.map(|p| p.display().to_string()).unwrap_or_default()
 }

@@ -64,6 +64,58 @@ pub fn sensitivity_columns() -> Vec<String> {
     out
 }
 
+/// Whether a spreadsheet would read a cell starting this way as a formula
+/// (`=`, `+`, `-`, `@`, or a tab or carriage return before one).
+pub fn starts_like_formula(cell: &[u8]) -> bool {
+    matches!(
+        cell.first(),
+        Some(b'=' | b'+' | b'-' | b'@' | b'\t' | b'\r')
+    )
+}
+
+/// A message cell the tool writes, made safe for spreadsheets: text that
+/// [`starts_like_formula`] gets a leading `'`, which spreadsheets take as
+/// "this is text" (and hide). No message the tool writes starts with `=`,
+/// `+`, `-` or `@` in any CSV.
+pub fn safe_message(text: &str) -> std::borrow::Cow<'_, str> {
+    if starts_like_formula(text.as_bytes()) {
+        std::borrow::Cow::Owned(format!("'{text}"))
+    } else {
+        std::borrow::Cow::Borrowed(text)
+    }
+}
+
+/// Appends one CSV cell of raw bytes (quoted when it holds `,`, `"`, or a
+/// line break; bytes kept as read, invalid UTF-8 included). With
+/// `neutralise`, a cell that [`starts_like_formula`] and is not a plain
+/// number (`-2.5` stays a number) gets a leading `'`, as for
+/// [`safe_message`]: the opt-in for inputs that go to a spreadsheet.
+pub fn push_cell_bytes(buf: &mut Vec<u8>, cell: &[u8], neutralise: bool) {
+    let guard = neutralise
+        && starts_like_formula(cell)
+        && !std::str::from_utf8(cell).is_ok_and(|t| {
+            t.parse::<f64>().is_ok_and(f64::is_finite) && !t.starts_with(['\t', '\r'])
+        });
+    let quote = cell
+        .iter()
+        .any(|b| matches!(b, b',' | b'"' | b'\n' | b'\r'));
+    if quote {
+        buf.push(b'"');
+    }
+    if guard {
+        buf.push(b'\'');
+    }
+    for &b in cell {
+        if b == b'"' {
+            buf.push(b'"');
+        }
+        buf.push(b);
+    }
+    if quote {
+        buf.push(b'"');
+    }
+}
+
 /// Shortest round-trip text of a float; empty for `None`.
 pub fn fmt_opt(x: Option<f64>) -> String {
     match x {
@@ -82,11 +134,14 @@ pub fn solution_fields(mu_m3_s2: f64, s: &Solution, sensitivities: bool) -> Vec<
     let c = &st.conic;
     let mut f = vec![
         "ok".to_string(),
-        s.warnings
-            .iter()
-            .map(|w| w.to_string())
-            .collect::<Vec<_>>()
-            .join("; "),
+        safe_message(
+            &s.warnings
+                .iter()
+                .map(|w| w.to_string())
+                .collect::<Vec<_>>()
+                .join("; "),
+        )
+        .into_owned(),
         st.branch.name().to_string(),
         fmt_opt(Some(st.speed_m_s)),
         fmt_opt(Some(st.flight_path_angle_rad.to_degrees())),
@@ -111,7 +166,7 @@ pub fn solution_fields(mu_m3_s2: f64, s: &Solution, sensitivities: bool) -> Vec<
 
 /// Result fields for a row that did not solve.
 pub fn failure_fields(status: &str, message: &str, sensitivities: bool) -> Vec<String> {
-    let mut f = vec![status.to_string(), message.to_string()];
+    let mut f = vec![status.to_string(), safe_message(message).into_owned()];
     let blanks = RESULT_COLUMNS.len() - 2 + if sensitivities { 15 } else { 0 };
     f.extend(std::iter::repeat_n(String::new(), blanks));
     f
@@ -149,6 +204,30 @@ mod tests {
             fmt_opt(Some(x)).parse::<f64>().unwrap().to_bits(),
             x.to_bits()
         );
+    }
+
+    #[test]
+    fn messages_never_start_like_a_formula() {
+        for bad in ["=1+1", "+x", "--fpa and --zenith", "@sum", "\tx"] {
+            let safe = safe_message(bad);
+            assert!(!starts_like_formula(safe.as_bytes()), "{safe}");
+            assert!(safe.ends_with(bad));
+        }
+        assert_eq!(safe_message("burnout radius"), "burnout radius");
+    }
+
+    #[test]
+    fn user_cells_are_kept_unless_neutralising_is_asked() {
+        let cell = |c: &[u8], n| {
+            let mut b = Vec::new();
+            push_cell_bytes(&mut b, c, n);
+            b
+        };
+        assert_eq!(cell(b"=HYPERLINK(1,2)", false), b"\"=HYPERLINK(1,2)\"");
+        assert_eq!(cell(b"=HYPERLINK(1,2)", true), b"\"'=HYPERLINK(1,2)\"");
+        assert_eq!(cell(b"-2.5", true), b"-2.5");
+        assert_eq!(cell(b"-2.5deg", true), b"'-2.5deg");
+        assert_eq!(cell(b"\xff@", true), b"\xff@");
     }
 
     #[test]

@@ -275,7 +275,7 @@ impl<'a> Record<'a> {
                 .map(|w| w.to_string())
                 .collect::<Vec<_>>()
                 .join("; ");
-            self.text(&joined);
+            self.text(&super::csv::safe_message(&joined));
         }
         self.text(st.branch.name());
         let numbers = [
@@ -321,7 +321,7 @@ impl<'a> Record<'a> {
 
     /// The result fields of a row that did not solve: status, message, blanks.
     pub fn failure(&mut self, status: &str, message: &str, sensitivities: bool) -> &mut Self {
-        self.text(status).text(message);
+        self.text(status).text(&super::csv::safe_message(message));
         let blanks = super::csv::RESULT_COLUMNS.len() - 2 + if sensitivities { 15 } else { 0 };
         self.blanks(blanks)
     }

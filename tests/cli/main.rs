@@ -10,6 +10,7 @@ mod bad_input;
 mod batch;
 mod budget;
 mod cases;
+mod hardening;
 mod scan;
 mod site;
 mod solve;
