@@ -83,6 +83,15 @@ pub enum Error {
     },
     /// The target quantities contradict each other or the burnout state.
     Infeasible(String),
+    /// A computed result is not finite (the inputs' magnitudes are beyond
+    /// what double precision carries, e.g. a gravitational parameter of
+    /// 1e-300).
+    NonFiniteResult {
+        /// Name of the quantity, with its unit.
+        quantity: &'static str,
+        /// The value computed.
+        value: f64,
+    },
     /// A numerical solve did not converge.
     NoConvergence {
         /// Solver used.
@@ -104,6 +113,7 @@ impl Error {
             | Error::NotFinite { .. }
             | Error::NotPositive { .. }
             | Error::OutOfRange { .. }
+            | Error::NonFiniteResult { .. }
             | Error::Usage(_) => ErrorClass::Usage,
             Error::BelowSurface { .. }
             | Error::BelowPeriapsis { .. }
@@ -211,6 +221,10 @@ impl fmt::Display for Error {
                 )
             }
             Error::Infeasible(msg) => f.write_str(msg),
+            Error::NonFiniteResult { quantity, value } => write!(
+                f,
+                "{quantity} comes out as {value}, not a finite number: the inputs' magnitudes (gravitational parameter, radii, speeds) are beyond what double precision carries for this answer"
+            ),
             Error::NoConvergence {
                 method,
                 iterations,

@@ -171,10 +171,12 @@ pub fn site_from_inputs(
 /// Any input or solve error.
 pub fn solve_inputs(inputs: &Inputs) -> Result<crate::problem::Solved, Error> {
     let problem = problem_from_inputs(inputs)?;
-    match site_from_inputs(inputs, &problem.body)? {
-        Some(site) => crate::site::solve_with_site(&problem, &site),
-        None => crate::problem::solve(&problem),
-    }
+    let solved = match site_from_inputs(inputs, &problem.body)? {
+        Some(site) => crate::site::solve_with_site(&problem, &site)?,
+        None => crate::problem::solve(&problem)?,
+    };
+    solved.check_finite()?;
+    Ok(solved)
 }
 
 /// Error-budget keys (case-file `[budget]` section and `burnout budget` flags).

@@ -72,6 +72,18 @@ pub struct Solved {
 }
 
 impl Solved {
+    /// Checks that every number of every solution is finite (a quantity that
+    /// does not exist for the orbit, such as the apoapsis of a hyperbola, is
+    /// `None`, not infinite).
+    ///
+    /// # Errors
+    /// [`Error::NonFiniteResult`] naming the first quantity that is not.
+    pub fn check_finite(&self) -> Result<(), Error> {
+        self.solutions
+            .iter()
+            .try_for_each(|s| check_state_finite(self.body.mu_m3_s2, &s.state, &s.sensitivity))
+    }
+
     /// The burnout radius shared by every solution, m; `None` when the
     /// solutions lie at different radii (the radius was solved for and has
     /// several roots).
@@ -96,6 +108,53 @@ impl Solved {
         }
         out
     }
+}
+
+/// Checks that a solved state, its orbit and its partials are finite
+/// (quantities the orbit lacks are `None`, not infinite).
+///
+/// # Errors
+/// [`Error::NonFiniteResult`] naming the first quantity that is not.
+pub fn check_state_finite(
+    mu_m3_s2: f64,
+    st: &BurnoutState,
+    sensitivity: &Sensitivity,
+) -> Result<(), Error> {
+    let c = &st.conic;
+    let values: [(&'static str, Option<f64>); 12] = [
+        ("burnout radius (m)", Some(st.radius_m)),
+        ("burnout speed (m/s)", Some(st.speed_m_s)),
+        ("flight-path angle (rad)", Some(st.flight_path_angle_rad)),
+        ("true anomaly (rad)", Some(st.true_anomaly_rad)),
+        ("periapsis radius (m)", Some(c.periapsis_radius_m())),
+        ("apoapsis radius (m)", c.apoapsis_radius_m()),
+        ("semi-major axis (m)", c.sma_m()),
+        ("eccentricity", Some(c.ecc())),
+        ("period (s)", c.period_s(mu_m3_s2)),
+        ("c3 (m2/s2)", Some(c.c3_m2_s2(mu_m3_s2))),
+        (
+            "angular momentum (m2/s)",
+            Some(c.angular_momentum_m2_s(mu_m3_s2)),
+        ),
+        (
+            "specific energy (j/kg)",
+            Some(c.specific_energy_j_kg(mu_m3_s2)),
+        ),
+    ];
+    for (quantity, v) in values {
+        if let Some(v) = v.filter(|v| !v.is_finite()) {
+            return Err(Error::NonFiniteResult { quantity, value: v });
+        }
+    }
+    for row in sensitivity.rows.iter().flatten() {
+        if let Some(v) = row.iter().find(|v| !v.is_finite()) {
+            return Err(Error::NonFiniteResult {
+                quantity: "sensitivity partial",
+                value: *v,
+            });
+        }
+    }
+    Ok(())
 }
 
 fn coast(mu_m3_s2: f64, state: &BurnoutState) -> Option<crate::kepler::CoastTimes> {

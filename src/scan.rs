@@ -456,6 +456,13 @@ impl Plan {
                 if self.apply(p, si) {
                     if let (Some(r), [a, b]) = (p.burnout_radius_m, p.targets.as_slice()) {
                         let lean = crate::lean::solve_pair(&p.body, a, b, r)?;
+                        for i in 0..lean.len {
+                            crate::problem::check_state_finite(
+                                p.body.mu_m3_s2,
+                                &lean.states[i],
+                                &lean.sensitivities[i],
+                            )?;
+                        }
                         let min_alt = p.min_periapsis_alt_m.or(p.body.min_safe_periapsis_alt_m);
                         let warn = |i: usize| {
                             if i < lean.len {

@@ -583,3 +583,40 @@ fn invalid_correlation_set_names_the_correlation_flags() {
     assert_eq!(r.code, Some(2));
     assert!(r.stderr.contains("--fpa-sigma"), "{}", r.stderr);
 }
+
+/// Hardening: a result that is not finite (a gravitational parameter of
+/// 1e-300 km3/s2 makes the period overflow) is a one-line error naming the
+/// quantity, never an `inf` or a silent null; in a scan it is an invalid row.
+#[test]
+fn non_finite_result_is_an_error_naming_the_quantity() {
+    let args = [
+        "--mu",
+        "1e-300",
+        "--radius",
+        "6000",
+        "--burnout-alt",
+        "300",
+        "--periapsis-alt",
+        "200",
+        "--apoapsis-alt",
+        "2000",
+    ];
+    let mut solve = vec!["solve"];
+    solve.extend_from_slice(&args);
+    let r = super::run(&solve);
+    assert_eq!(r.code, Some(2), "{}", r.stdout);
+    assert!(r.stdout.is_empty());
+    assert_eq!(r.stderr.lines().count(), 1);
+    assert!(
+        r.stderr.contains("period (s)") && r.stderr.contains("not a finite"),
+        "{}",
+        r.stderr
+    );
+    let mut scan = vec!["scan", "--format", "csv"];
+    scan.extend_from_slice(&args);
+    let alt = scan.iter().position(|a| *a == "--burnout-alt").unwrap() + 1;
+    scan[alt] = "300..400:50";
+    let r = super::run(&scan);
+    assert_ne!(r.code, Some(0));
+    assert_eq!(r.stdout.matches(",invalid,").count(), 3, "{}", r.stdout);
+}
