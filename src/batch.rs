@@ -252,9 +252,27 @@ impl<R: BufRead> Batch<R> {
         self.empty
     }
 
+    /// `given_<name>` for an input column whose name equals a result column
+    /// written beside it; the name as read otherwise.
+    fn given_name(name: &str, sensitivities: bool, site: bool) -> String {
+        let taken = RESULT_COLUMNS.contains(&name)
+            || (site && SITE_COLUMNS.contains(&name))
+            || (sensitivities && sensitivity_columns().iter().any(|c| c == name));
+        if taken {
+            format!("given_{name}")
+        } else {
+            name.to_string()
+        }
+    }
+
     /// The output header: input columns, result columns, partials if asked.
     pub fn output_columns(&self, sensitivities: bool) -> Vec<String> {
-        let mut cols = self.layout.names.clone();
+        let mut cols: Vec<String> = self
+            .layout
+            .names
+            .iter()
+            .map(|n| Self::given_name(n, sensitivities, self.layout.has_site()))
+            .collect();
         cols.extend(RESULT_COLUMNS.iter().map(|s| s.to_string()));
         if sensitivities {
             cols.extend(sensitivity_columns());
@@ -285,7 +303,11 @@ impl<R: BufRead> Batch<R> {
                 head.push(b',');
             }
             match self.layout.raw_names.get(i) {
-                Some(raw) if i < width => push_cell_bytes(&mut head, raw, opts.safe_cells),
+                // An input column named like a result column is written as
+                // given_<name> (the contract's rule); others exactly as read.
+                Some(raw) if i < width && c.as_bytes() == raw.as_slice() => {
+                    push_cell_bytes(&mut head, raw, opts.safe_cells)
+                }
                 _ => push_cell_bytes(&mut head, c.as_bytes(), false),
             }
         }

@@ -408,3 +408,29 @@ fn angle_to_apoapsis_with_coast_time_is_bracketed_over_eccentricity() {
         .unwrap()
         .contains("eccentricity"));
 }
+
+/// Class 7, batch side: a carried input column named like a result column
+/// is written as given_<name>; every batch row has its own burnout radius.
+#[test]
+fn batch_input_columns_named_like_results_are_written_as_given() {
+    let dir = tempfile::tempdir().unwrap();
+    let input = dir.path().join("in.csv");
+    std::fs::write(
+        &input,
+        "id,burnout-alt,periapsis-alt,apoapsis-alt,burnout_radius_m,sma_m\nA,200,200,400,x,y\n",
+    )
+    .unwrap();
+    let r = run(&["batch", input.to_str().unwrap()]);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    let mut rd = csv::Reader::from_reader(r.stdout.as_bytes());
+    let h: Vec<String> = rd.headers().unwrap().iter().map(String::from).collect();
+    for name in ["burnout_radius_m", "sma_m"] {
+        assert_eq!(h.iter().filter(|c| *c == name).count(), 1, "{h:?}");
+        assert!(h.contains(&format!("given_{name}")), "{h:?}");
+    }
+    let rec = rd.records().next().unwrap().unwrap();
+    let col = |n: &str| h.iter().position(|c| c == n).unwrap();
+    assert_eq!(&rec[col("given_burnout_radius_m")], "x");
+    let r_bo: f64 = rec[col("burnout_radius_m")].parse().unwrap();
+    assert_relative_eq!(r_bo, EARTH_R + 200e3, max_relative = 1e-15);
+}
