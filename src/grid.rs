@@ -212,6 +212,20 @@ pub fn parse_range(flag: &str, text: &str, kind: Kind) -> Result<Grid, Error> {
             (*role, n, u)
         })
         .collect();
+    // A part without a number (`nan`, `inf`, a lone unit) is blamed on
+    // itself, before its text could be taken for the range's unit.
+    for ((role, t), (_, number_text, _)) in raw.iter().zip(&split) {
+        if number_text.trim().is_empty() {
+            let lower = t.trim().to_ascii_lowercase();
+            let word = lower.trim_start_matches(['+', '-']);
+            let why = if word.starts_with("nan") || word.starts_with("inf") {
+                "not a finite number"
+            } else {
+                "not a number"
+            };
+            return Err(fail(format!("{role} '{}' is {why}", t.trim())));
+        }
+    }
     // The range's unit: END's, else START's, else STEP's.
     let range_unit = [1usize, 0, 2]
         .iter()
@@ -257,9 +271,11 @@ pub fn parse_range(flag: &str, text: &str, kind: Kind) -> Result<Grid, Error> {
         let parsed = match parse(flag, &full, kind) {
             Ok(p) => p,
             Err(e) => {
-                // Say plainly when a part is a value of another kind.
+                // Say plainly when a part is a value of another kind (only
+                // a unit can say so: a bare number is no kind's own).
                 if let Some(other) = OTHER_KINDS
                     .iter()
+                    .filter(|_| !unit.is_empty())
                     .find(|k| **k != kind && parse(flag, &full, **k).is_ok())
                 {
                     return Err(fail(format!(
@@ -410,6 +426,22 @@ pub fn parse_range(flag: &str, text: &str, kind: Kind) -> Result<Grid, Error> {
 mod tests {
     use super::*;
     use approx::assert_relative_eq;
+
+    #[test]
+    fn a_part_without_a_number_is_blamed_on_itself() {
+        // Issue 9: these blamed the start.
+        assert!(err("150..600:nan", Kind::Length).ends_with("step 'nan' is not a finite number"));
+        assert!(err("150..inf:5", Kind::Length).ends_with("end 'inf' is not a finite number"));
+        assert!(err("km..600:5", Kind::Length).ends_with("start 'km' is not a number"));
+    }
+
+    #[test]
+    fn a_bare_number_out_of_range_is_not_called_another_kind() {
+        // Issue 9: `1e17..1e17:1` for a length was "a time".
+        let e = err("1e17..1e17:1", Kind::Length);
+        assert!(!e.contains("is a time"), "{e}");
+        assert!(e.contains("start '1e17'"), "{e}");
+    }
 
     fn grid(text: &str, kind: Kind) -> Grid {
         parse_range("--x", text, kind).unwrap()

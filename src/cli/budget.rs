@@ -87,6 +87,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
     super::reject_empty(&flags)?;
     let inputs = overlay(args.problem.inputs()?, &flags);
     let (errors, tolerances) = budget_from_inputs(&inputs)?;
+    check_budget_magnitudes(&inputs)?;
     if errors.is_none() && tolerances.is_none() {
         return Err(Error::Usage(
             "nothing to budget: give burnout errors (--speed-sigma, --fpa-sigma, --alt-sigma) and/or orbit tolerances (--periapsis-tol, --apoapsis-tol, ...)".into(),
@@ -139,4 +140,40 @@ pub fn run(args: Args) -> Result<i32, Error> {
     }
     super::emit(&buf)?;
     Ok(0)
+}
+
+/// Smallest sigma or tolerance accepted, in SI (m, m/s, rad, s; a ratio for
+/// --ecc-tol). The budget squares these and inverts the squares: below
+/// 1e-150 the square underflows and the ellipsoid's axes come out NaN.
+const MIN_BUDGET_SI: f64 = 1e-150;
+
+/// A one-line error for a sigma or tolerance so small that the budget's
+/// arithmetic would give non-finite numbers.
+fn check_budget_magnitudes(inputs: &Inputs) -> Result<(), Error> {
+    for key in [
+        "speed-sigma",
+        "fpa-sigma",
+        "alt-sigma",
+        "periapsis-tol",
+        "apoapsis-tol",
+        "sma-tol",
+        "ecc-tol",
+        "period-tol",
+    ] {
+        let (Some(text), Some(kind)) = (inputs.get(key), burnout::inputs::kind_of(key)) else {
+            continue;
+        };
+        let flag = format!("--{key}");
+        let Ok(value) = burnout::units::parse(&flag, text, kind) else {
+            continue; // budget_from_inputs has reported it already
+        };
+        if value.si != 0.0 && value.si.abs() < MIN_BUDGET_SI {
+            return Err(Error::Usage(format!(
+                "{flag} '{}' is {:e} in SI units: expected 0 or at least {MIN_BUDGET_SI:e} (m, m/s, rad, s, or a ratio for --ecc-tol)",
+                text.trim(),
+                value.si
+            )));
+        }
+    }
+    Ok(())
 }

@@ -575,3 +575,67 @@ fn solve_still_works_with_every_stream_normal() {
     let dir = tempfile::tempdir().unwrap();
     assert_eq!(run(dir.path(), &SOLVE).code, Some(0));
 }
+
+#[test]
+fn range_messages_blame_the_part_at_fault() {
+    let dir = tempfile::tempdir().unwrap();
+    for (range, want) in [
+        ("150..600:nan", "step 'nan' is not a finite number"),
+        (
+            "0..3e9:1",
+            "3000000001 points is more than the limit 1000000000",
+        ),
+    ] {
+        let r = run(
+            dir.path(),
+            &[
+                "scan",
+                "--burnout-alt",
+                range,
+                "--periapsis-alt",
+                "185",
+                "--apoapsis-alt",
+                "35786",
+            ],
+        );
+        assert_eq!(r.code, Some(2));
+        assert!(r.stderr.contains(want), "{range}: {}", r.stderr);
+    }
+    let r = run(
+        dir.path(),
+        &[
+            "scan",
+            "--burnout-alt",
+            "1e17..1e17:1",
+            "--periapsis-alt",
+            "185",
+            "--apoapsis-alt",
+            "35786",
+        ],
+    );
+    assert_eq!(r.code, Some(2));
+    assert!(!r.stderr.contains("is a time"), "{}", r.stderr);
+}
+
+// Defect 7 (the budget's part): tolerances too small for finite axes.
+
+#[test]
+fn budget_tolerance_too_small_for_finite_axes_is_an_error() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut args = vec!["budget"];
+    args.extend_from_slice(&SOLVE[1..]);
+    args.extend(["--periapsis-tol", "1e-300", "--apoapsis-tol", "1e-300"]);
+    let r = run(dir.path(), &args);
+    assert_eq!(r.code, Some(2));
+    assert_eq!(r.stderr.lines().count(), 1);
+    assert!(
+        r.stderr.starts_with("error: --periapsis-tol '1e-300'"),
+        "{}",
+        r.stderr
+    );
+    assert!(
+        r.stderr.contains("expected 0 or at least 1e-150"),
+        "{}",
+        r.stderr
+    );
+}
