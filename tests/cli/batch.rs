@@ -93,7 +93,9 @@ shot,earth,45,,250,84deg,\n";
         "periapsis-alt",
         "apoapsis-alt",
         "fpa",
-        "branch",
+        // The input column `branch` shares its name with the result column:
+        // written as given_branch (the contract's given_ rule).
+        "given_branch",
     ];
     want.extend(RESULT_COLUMNS);
     assert_eq!(header, want);
