@@ -68,6 +68,16 @@ reference root is 'extra'; a tool exit 3 with reference roots misses all of
 them. Each tool root is also fed back into the model: the target (and for C
 the element) must be met to 1e-9 relative or the same conditioning floor.
 
+Ill-conditioned roots (floor above 1e-9) get only the looser allowance of
+4x their floor; missing one, or returning it outside that allowance, still
+fails. Only roots that exist inside the double-precision noise of the
+residual (a pair whose residual between them stays within 10x the noise, or
+a near-touch of zero within the noise) are optional: reported, never required,
+and a tool root on them is not 'extra'. A free burnout radius (type D) is
+searched over the whole physical domain; roots beyond FREE_RADIUS_MAX body
+radii (the tool's documented search range) are reported as optional
+'beyond documented range' roots.
+
 Exits 1 on any disagreement, printing the command line and why.
 """
 import json
@@ -86,6 +96,9 @@ BASE_DPS = 50
 SAMPLE_DPS = 26
 K_ULP = mp.mpf("1e-15")
 REL = mp.mpf("1e-9")
+# The tool documents a search for a free burnout radius up to 1e4 body radii
+# (README, "Free burnout quantities"): roots beyond are optional.
+FREE_RADIUS_MAX = 10000
 FLOOR_FACTOR = 4
 BODIES = ["earth", "moon", "mars", "venus", "mercury", "jupiter", "sun"]
 REGIMES = ["elliptic", "near-parabolic-ellipse", "near-parabolic-hyperbola", "near-circular",
@@ -312,8 +325,10 @@ class Problem:
         if t == "A":
             r, g = P["r"], P["g"]
             vesc = mp.sqrt(2 * mu / r)
+            sc = 1 / mp.sqrt(2)  # circular speed: the burnout swaps apsis there
             below = (lin(mp.mpf("1e-3"), 1 - mp.mpf("1e-3"), 160) + geom(0, 1, -9, -3, 40)
-                     + geom(1, -1, -18, -3, 110))
+                     + geom(1, -1, -18, -3, 110) + geom(sc, sc, -17, -1, 50)
+                     + geom(sc, -sc, -17, -1, 50))
             above = (geom(1, 1, -18, -3, 110) + geom(1, 1, -3, 5, 80))
             if closed_only or g > 0:
                 out.append(([vesc * s for s in below], "speed below escape"))
@@ -328,6 +343,8 @@ class Problem:
                 pts += [R * mp.power(10, span * s) for s in lin(0, 1, 200)]
                 pts += geom(R, R, -15, -2, 30)
                 pts += geom(resc, -resc, -18, -2, 110)
+                rc = resc / 2  # circular radius for this speed
+                pts += geom(rc, rc, -17, -1, 50) + geom(rc, -rc, -17, -1, 50)
                 pts = [p for p in pts if R < p < resc]
             if not (closed_only or g > 0):
                 hi = max(resc, R)
@@ -795,6 +812,10 @@ def run_case(case, binary):
         ill = any(floors[i] > REL * abs(out_vals[i]) for i in range(3))
         refs.append({"u": u, "out": out_vals, "tol": tol, "ill": ill, "optional": False,
                      "noise": noise})
+    if ptype == "D":
+        for rf in refs:
+            if rf["out"][0] > FREE_RADIUS_MAX * P["R"]:
+                rf["optional"] = rf["beyond"] = True
     # roots that only exist within the double-precision noise of the residual
     for i in range(len(refs) - 1):
         a, b = refs[i]["u"], refs[i + 1]["u"]
@@ -811,9 +832,11 @@ def run_case(case, binary):
                          "noise": noise})
     res["ref"] = [f"#{i + 1} r={mp.nstr(rf['out'][0], 17)} v={mp.nstr(rf['out'][1], 17)} "
                   f"fpa={mp.nstr(rf['out'][2], 17)}" + (" (ill-conditioned)" if rf["ill"] else "")
-                  + (" (optional: within double noise)" if rf["optional"] else "") for i, rf in enumerate(refs)]
+                  + ((" (optional: beyond the documented search range)" if rf.get("beyond") else
+                     " (optional: within double noise)") if rf["optional"] else "") for i, rf in enumerate(refs)]
     required = [rf for rf in refs if not rf["optional"]]
     res["nref"] = len(required)
+    res["nopt"] = len(refs) - len(required)
     res["ill"] = sum(1 for rf in required if rf["ill"])
     # tool
     tool = []
@@ -888,8 +911,9 @@ def run_case(case, binary):
         r_t, v_t, fpa_t = tl["out"]
         target_note = verify_state(P, ptype, kind, r_t, v_t, fpa_t)
         if target_note:
-            res["problems"].append(f"tool root r={mp.nstr(r_t, 17)} v={mp.nstr(v_t, 17)} fpa={mp.nstr(fpa_t, 17)} "
-                                   f"fails the 50-digit model: {target_note}")
+            res["problems"].append(
+                f"tool root r={mp.nstr(r_t, 17)} v={mp.nstr(v_t, 17)} fpa={mp.nstr(fpa_t, 17)} "
+                f"fails the 50-digit model: {target_note}")
         want_branch = "ascending" if fpa_t > 0 else "descending" if fpa_t < 0 else None
         if want_branch and tl["branch"] != want_branch:
             res["problems"].append(f"tool root fpa={fpa_t} labelled {tl['branch']}")
@@ -908,8 +932,9 @@ def run_case(case, binary):
                           "the REFERENCE may be incomplete"
             else:
                 verdict = "does not meet the target"
-            res["problems"].append(f"extra tool root r={mp.nstr(r_t, 17)} m v={mp.nstr(v_t, 17)} m/s "
-                                   f"fpa={mp.nstr(fpa_t, 17)} deg ({verdict})")
+            res["problems"].append(
+                f"extra tool root r={mp.nstr(r_t, 17)} m v={mp.nstr(v_t, 17)} m/s "
+                f"fpa={mp.nstr(fpa_t, 17)} deg ({verdict})")
     res["ok"] = not res["problems"]
     res["max_rel"] = float(res["max_rel"])
     res["ill_ratio"] = float(res["ill_ratio"])
@@ -950,7 +975,7 @@ def main(argv):
             results = list(pool.map(worker, jobs, chunksize=2))
     else:
         results = [worker(j) for j in jobs]
-    stats = {rg: {"cases": 0, "failed": 0, "ref": 0, "found": 0, "missed": 0, "extra": 0, "ill": 0,
+    stats = {rg: {"cases": 0, "failed": 0, "ref": 0, "opt": 0, "found": 0, "missed": 0, "extra": 0, "ill": 0,
                   "max_rel": 0.0, "ill_ratio": 0.0} for rg in REGIMES}
     for case, res in zip(cases, results):
         st = stats[res["regime"]]
@@ -958,6 +983,7 @@ def main(argv):
         for k in ("found", "missed", "extra", "ill"):
             st[k] += res[k]
         st["ref"] += res["nref"]
+        st["opt"] += res["nopt"]
         st["max_rel"] = max(st["max_rel"], res["max_rel"])
         st["ill_ratio"] = max(st["ill_ratio"], res["ill_ratio"])
         if verbose or not res["ok"]:
@@ -970,13 +996,13 @@ def main(argv):
             st["failed"] += 1
     print()
     head = f"{'regime':<26}{'cases':>6}{'failed':>7}{'ref roots':>10}{'found':>7}{'missed':>7}" \
-           f"{'extra':>6}{'ill-cond':>9}{'max rel err':>13}{'ill err/allow':>14}"
+           f"{'extra':>6}{'ill-cond':>9}{'optional':>9}{'max rel err':>13}{'ill err/allow':>14}"
     print(head)
     print("-" * len(head))
     for rg in REGIMES:
         st = stats[rg]
         print(f"{rg:<26}{st['cases']:>6}{st['failed']:>7}{st['ref']:>10}{st['found']:>7}{st['missed']:>7}"
-              f"{st['extra']:>6}{st['ill']:>9}{st['max_rel']:>13.2e}{st['ill_ratio']:>14.2e}")
+              f"{st['extra']:>6}{st['ill']:>9}{st['opt']:>9}{st['max_rel']:>13.2e}{st['ill_ratio']:>14.2e}")
     failed = sum(1 for r in results if not r["ok"])
     print(f"{len(results) - failed} passed, {failed} failed")
     return 1 if failed else 0

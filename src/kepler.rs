@@ -46,6 +46,28 @@ fn sinh_minus_x(x: f64) -> f64 {
     }
 }
 
+/// Angle still to travel from the burnout state to apoapsis, rad in
+/// [0, 2 pi): 180 deg minus the true anomaly, computed directly as
+/// atan2(e sin nu, -e cos nu) with e sin nu = Q sin g cos g and
+/// e cos nu = (Q - 1) - Q sin^2 g, so that a burnout just short of apoapsis
+/// keeps the small angle's relative digits (pi - nu would keep only those of
+/// pi). `None` on an open orbit or a non-physical state.
+pub fn angle_to_apoapsis_rad(energy: EnergyRatio, flight_path_angle_rad: f64) -> Option<f64> {
+    let EnergyRatio {
+        q,
+        q_minus_1,
+        two_minus_q,
+    } = energy;
+    if !(two_minus_q > 0.0 && q > 0.0 && flight_path_angle_rad.is_finite()) {
+        return None;
+    }
+    let (s, c) = flight_path_angle_rad.sin_cos();
+    let e_sin = q * s * c;
+    let e_cos = q_minus_1 - q * s * s;
+    let a = e_sin.atan2(-e_cos);
+    Some(if a < 0.0 { a + 2.0 * PI } else { a })
+}
+
 /// Times of flight from a burnout state to its next apsides.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct CoastTimes {

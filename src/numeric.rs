@@ -42,7 +42,6 @@ use crate::invert::{burnout_for_conic, forward_state, BurnoutState};
 #[cfg(test)]
 use crate::kepler::coast_times;
 use crate::kepler::coast_times_at;
-use crate::orbit::forward;
 use crate::orbit::EnergyRatio;
 use crate::problem::{finish, Problem, Solved, SolverReport};
 use crate::target::{conic_from_pair, Target, TargetQuantity};
@@ -214,19 +213,12 @@ impl System {
         if !(r.is_finite() && v.is_finite() && gamma.is_finite()) || r <= 0.0 || v <= 0.0 {
             return None;
         }
-        self.residual_with(i, r, v, gamma, EnergyRatio::new(self.mu, r, v))
+        self.residual_with(i, r, gamma, EnergyRatio::new(self.mu, r, v))
     }
 
     /// As [`System::residual_of`], with the state's energy ratio given
     /// (more exactly than the speed carries it, where a caller knows it).
-    fn residual_with(
-        &self,
-        i: usize,
-        r: f64,
-        v: f64,
-        gamma: f64,
-        energy: EnergyRatio,
-    ) -> Option<f64> {
+    fn residual_with(&self, i: usize, r: f64, gamma: f64, energy: EnergyRatio) -> Option<f64> {
         let mu = self.mu;
         let t = self.targets.get(i)?;
         let (s, c) = gamma.sin_cos();
@@ -256,11 +248,8 @@ impl System {
             Q::TimeToApoapsis => coast_times_at(mu, r, gamma, energy)?.to_apoapsis_s? / x - 1.0,
             Q::TimeToPeriapsis => coast_times_at(mu, r, gamma, energy)?.to_periapsis_s? / x - 1.0,
             Q::AngleToApoapsis => {
-                if two_minus_q <= 0.0 {
-                    return None;
-                }
-                let (_, nu) = forward(mu, r, v, gamma).ok()?;
-                let d = (PI - nu - x).rem_euclid(2.0 * PI);
+                let d =
+                    (crate::kepler::angle_to_apoapsis_rad(energy, gamma)? - x).rem_euclid(2.0 * PI);
                 if d > PI {
                     d - 2.0 * PI
                 } else {
@@ -807,13 +796,16 @@ impl Line for FreeLine<'_> {
 struct AnomalySheet<'a> {
     system: &'a System,
     radius_m: f64,
-    true_anomaly_rad: f64,
+    angle_to_apoapsis_rad: f64,
     other: usize,
 }
 
 impl Line for AnomalySheet<'_> {
     fn state(&self, e: f64) -> Option<(f64, f64, f64)> {
-        let (sn, cn) = self.true_anomaly_rad.sin_cos();
+        // nu = pi - angle: sin nu = sin(angle), cos nu = -cos(angle), taken
+        // from the angle itself so a small angle keeps its digits.
+        let (sa, ca) = self.angle_to_apoapsis_rad.sin_cos();
+        let (sn, cn) = (sa, -ca);
         let r = self.radius_m;
         let p = r * (1.0 + e * cn);
         if !(p > 0.0 && (0.0..1.0).contains(&e)) {
@@ -895,14 +887,30 @@ impl Sheet<'_> {
             Q::C3 => from_inv_a(-x / mu),
             Q::SpecificEnergy => from_inv_a(-2.0 * x / mu),
             Q::PeriapsisRadius | Q::ApoapsisRadius => {
+                // Each factor in the form that does not cancel: near
+                // horizontal from (R - r), near vertical from the small
+                // cos g, 1 - sin g = 2 sin^2(pi/4 - g/2), 1 + sin g likewise.
+                let steep = s * s > 0.5;
                 let half = (0.5 * gamma).sin();
-                let d_minus = (x - r) + 2.0 * r * half * half;
+                let d_minus = if steep {
+                    x - r * c
+                } else {
+                    (x - r) + 2.0 * r * half * half
+                };
                 let d_plus = x + r * c;
                 let den = d_minus * d_plus;
-                let two_minus_q = 2.0 * r * ((x - r) + r * s * s) / den;
+                let x_minus_r_c2 = if steep {
+                    x - r * c * c
+                } else {
+                    (x - r) + r * s * s
+                };
+                let q4 = std::f64::consts::FRAC_PI_4;
+                let one_minus_s = 2.0 * (q4 - 0.5 * gamma).sin().powi(2);
+                let one_plus_s = 2.0 * (q4 + 0.5 * gamma).sin().powi(2);
+                let two_minus_q = 2.0 * r * x_minus_r_c2 / den;
                 EnergyRatio {
                     q: 2.0 - two_minus_q,
-                    q_minus_1: ((x - r) * (x - r) - r * r * s * s) / den,
+                    q_minus_1: (x - r * one_plus_s) * (x - r * one_minus_s) / den,
                     two_minus_q,
                 }
             }
@@ -937,7 +945,7 @@ impl Line for Sheet<'_> {
         if !(energy.q.is_finite() && energy.two_minus_q.is_finite()) {
             return self.residual_at(r, v, g);
         }
-        self.system.residual_with(self.other, r, v, g, energy)
+        self.system.residual_with(self.other, r, g, energy)
     }
     fn derived(&self) -> (bool, bool) {
         // The energy comes from the element itself except on eccentricity
@@ -1245,7 +1253,7 @@ fn solve_square(system: &System, square: &Square) -> Result<SquareRoots, Error> 
             let sheet = AnomalySheet {
                 system,
                 radius_m: system.fixed_radius_m.unwrap_or(f64::NAN),
-                true_anomaly_rad: PI - system.targets[a].value,
+                angle_to_apoapsis_rad: system.targets[a].value,
                 other: o,
             };
             let (states, it, flat) = roots_as_states(&sheet, &ecc_grid());

@@ -180,9 +180,13 @@ pub fn achieved(mu_m3_s2: f64, state: &BurnoutState, q: TargetQuantity) -> Optio
         TargetQuantity::SpecificEnergy => Some(c.specific_energy_j_kg(mu_m3_s2)),
         TargetQuantity::TimeToApoapsis => coast(mu_m3_s2, state)?.to_apoapsis_s,
         TargetQuantity::TimeToPeriapsis => coast(mu_m3_s2, state)?.to_periapsis_s,
-        TargetQuantity::AngleToApoapsis => c.apoapsis_radius_m().map(|_| {
-            (std::f64::consts::PI - state.true_anomaly_rad).rem_euclid(2.0 * std::f64::consts::PI)
-        }),
+        TargetQuantity::AngleToApoapsis => {
+            c.apoapsis_radius_m()?;
+            crate::kepler::angle_to_apoapsis_rad(
+                crate::orbit::EnergyRatio::new(mu_m3_s2, state.radius_m, state.speed_m_s),
+                state.flight_path_angle_rad,
+            )
+        }
     }
 }
 

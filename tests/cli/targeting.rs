@@ -434,3 +434,59 @@ fn batch_input_columns_named_like_results_are_written_as_given() {
     let r_bo: f64 = rec[col("burnout_radius_m")].parse().unwrap();
     assert_relative_eq!(r_bo, EARTH_R + 200e3, max_relative = 1e-15);
 }
+
+/// A near-radial apsis sheet (periapsis 0.11 m from the centre: a path
+/// through the planet, kept as a pure two-body check): the energy along it
+/// is taken in non-cancelling factors, so both roots at +-89.99 deg are
+/// found. Reference: scripts/coast_reference.py (seed 1, case 125).
+#[test]
+fn near_radial_apsis_sheet_finds_both_steep_roots() {
+    let doc = solve_json(&[
+        "--body",
+        "venus",
+        "--burnout-alt",
+        "1429.2244428834269km",
+        "--periapsis-alt=-6051.7998890730057km",
+        "--time-to-apoapsis",
+        "0.061388866559093397d",
+    ]);
+    let mut v: Vec<(f64, f64)> = solutions(&doc)
+        .iter()
+        .map(|s| (num(s, "/flight_path_angle_deg"), num(s, "/speed_m_s")))
+        .collect();
+    v.sort_by(|a, b| a.0.total_cmp(&b.0));
+    assert_eq!(v.len(), 2, "{v:?}");
+    assert_relative_eq!(v[0].1, 7115.087025858734, max_relative = 1e-9);
+    assert_relative_eq!(v[0].0, -89.990861768798814, max_relative = 1e-9);
+    assert_relative_eq!(v[1].1, 7472.7219459146867, max_relative = 1e-9);
+    assert_relative_eq!(v[1].0, 89.991299112862402, max_relative = 1e-9);
+}
+
+/// A burnout 1.8e-6 deg short of apoapsis: the angle to apoapsis is
+/// computed as atan2(e sin nu, -e cos nu), never as 180 deg - nu, so the
+/// small angle keeps its relative digits. Reference:
+/// scripts/coast_reference.py (seed 1, case 166).
+#[test]
+fn tiny_angle_to_apoapsis_keeps_its_digits() {
+    let doc = solve_json(&[
+        "--body",
+        "mars",
+        "--burnout-radius",
+        "63566960.678061320ft",
+        "--angle-to-apoapsis",
+        "1.7989053312840427e-6deg",
+        "--time-to-apoapsis",
+        "0.00054076039078669373s",
+    ]);
+    let s = &solutions(&doc)[0];
+    assert_relative_eq!(
+        num(s, "/speed_m_s"),
+        1124.9344400012093,
+        max_relative = 1e-12
+    );
+    assert_relative_eq!(
+        num(s, "/flight_path_angle_deg"),
+        1.3433326376700364e-6,
+        max_relative = 1e-9
+    );
+}
