@@ -260,8 +260,16 @@ impl Plan {
                 .iter()
                 .map(|a| format!("{} {}", a.flag, a.grid.len()))
                 .collect();
+            // The product as a float: exact for any count that fits, and a
+            // readable magnitude (not a saturated integer) beyond.
+            let product: f64 = axes.iter().map(|a| a.grid.len() as f64).product();
+            let shown = if product < 1e15 {
+                format!("{product}")
+            } else {
+                format!("{product:.3e}")
+            };
             return Err(Error::Usage(format!(
-                "the scan has {total} points ({}), more than the limit {MAX_POINTS}: use larger steps",
+                "the scan has {shown} points ({}), more than the limit {MAX_POINTS}: use larger steps",
                 sizes.join(" x ")
             )));
         }

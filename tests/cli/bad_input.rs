@@ -620,3 +620,21 @@ fn non_finite_result_is_an_error_naming_the_quantity() {
     assert_ne!(r.code, Some(0));
     assert_eq!(r.stdout.matches(",invalid,").count(), 3, "{}", r.stdout);
 }
+
+/// Hardening: a scan whose point count overflows 64 bits reports its
+/// magnitude, not a saturated integer.
+#[test]
+fn huge_scan_reports_its_point_count_not_a_saturated_integer() {
+    let r = super::run(&[
+        "scan",
+        "--burnout-alt",
+        "0..9e8:1",
+        "--periapsis-alt",
+        "0..9e8:1",
+        "--apoapsis-alt",
+        "0..9e8:1",
+    ]);
+    assert_eq!(r.code, Some(2));
+    assert!(r.stderr.contains("7.290e26 points"), "{}", r.stderr);
+    assert!(!r.stderr.contains("18446744073709551615"), "{}", r.stderr);
+}
