@@ -1,7 +1,14 @@
 #!/usr/bin/env python3
 """Independent 50-digit reference for the coast-time targets of `burnout solve`.
 
-    python3 scripts/coast_reference.py BIN [N_CASES] [SEED] [--verbose]
+    python3 scripts/coast_reference.py BIN [N_CASES] [SEED] [--verbose] [--report-ill-conditioned]
+
+By default every disagreement fails, ill-conditioned roots included.
+--report-ill-conditioned (used by CI) prints a case whose only
+disagreements concern ill-conditioned reference roots (conditioning floor
+above 1e-9: the root cannot be pinned to 1e-9 in double precision) as ILL
+and counts it in the closing line, without failing the run; a miss of any
+well-conditioned root, any stray root or any bad exit still fails.
 
 Two-body point-mass model, derived here from first principles with mpmath
 (no formula is taken from the product). For a burnout state (r, v, fpa) with
@@ -41,9 +48,11 @@ domain; F is analytic inside a piece. The variable u is one in which the
 family is a smooth curve (speed, fpa, radius, true anomaly on the element
 family, eccentricity on the fixed-angle family), and the grid is a union of
 uniform points with geometric clusters (10^-k offsets, down to ~1e-16
-relative or 1e-18 in 1 - v/v_esc) at every end of a piece and at the escape
-speed/radius, so all scales at which the function can change (near-parabolic,
-near-circular, near-vertical, tiny fpa) carry dozens of samples. F is
+relative or 1e-18 in 1 - v/v_esc) at every end of a piece, at the escape
+and the circular speed/radius, and (fpa free) points uniform in the
+eccentric anomaly, so all scales at which the function can change
+(near-parabolic, near-circular, near-vertical, tiny fpa) carry dozens of
+samples. F is
 monotone in the limit at every end of a piece (time -> infinity as the
 orbit opens, or -> a finite apsis limit linearly), so no root hides beyond
 the outermost samples. The grid is then refined adaptively: an interval is
@@ -926,7 +935,8 @@ def run_case(case, binary):
                 verdict = f"a duplicate of reference root #{i + 1}, already matched by another tool root"
             elif i is not None and ratios[i] < 1e6:
                 verdict = (f"near reference root #{i + 1} but off by {mp.nstr(ratios[i], 3)} times the allowance"
-                           + ("" if target_note else "; it meets the target to 1e-9 only because the target is insensitive here"))
+                           + ("" if target_note else "; its state meets the targets to 1e-9 relative, but the root is "
+                              "pinned much tighter than that"))
             elif not target_note:
                 verdict = "meets the target in the 50-digit model yet matches no reference root: " \
                           "the REFERENCE may be incomplete"
@@ -936,6 +946,20 @@ def run_case(case, binary):
                 f"extra tool root r={mp.nstr(r_t, 17)} m v={mp.nstr(v_t, 17)} m/s "
                 f"fpa={mp.nstr(fpa_t, 17)} deg ({verdict})")
     res["ok"] = not res["problems"]
+    # With --report-ill-conditioned (what CI uses; see the docstring), a case
+    # whose only disagreements concern ill-conditioned reference roots is
+    # printed and counted as 'ill-posed' but does not fail the run.
+    if not res["ok"] and REPORT_ILL:
+        well_missed = any(not rf["ill"] and i not in matched
+                          for i, rf in enumerate(refs) if not rf["optional"])
+        def near_ill(tl):
+            return any(rf["ill"] and max(abs(tl["out"][k] - rf["out"][k]) / rf["tol"][k] for k in range(3)) < 1e6
+                       for rf in refs)
+        stray = any(j not in owner and not near_ill(tl) for j, tl in enumerate(tool))
+        bad_exit = rc not in (0, 3) or (rc == 3 and any(not rf["ill"] for rf in required))
+        if not (well_missed or stray or bad_exit):
+            res["ok"] = True
+            res["ill_posed"] = True
     res["max_rel"] = float(res["max_rel"])
     res["ill_ratio"] = float(res["ill_ratio"])
     res["P"] = {k: mp.nstr(v, 20) for k, v in P.items()}
@@ -950,9 +974,14 @@ def worker(job):
 
 # --------------------------------------------------------------------------
 
+REPORT_ILL = False
+
+
 def main(argv):
+    global REPORT_ILL
     verbose = "--verbose" in argv
-    pos = [a for a in argv[1:] if a != "--verbose"]
+    REPORT_ILL = "--report-ill-conditioned" in argv
+    pos = [a for a in argv[1:] if a not in ("--verbose", "--report-ill-conditioned")]
     if not pos:
         print(__doc__.splitlines()[2].strip())
         return 2
@@ -986,8 +1015,10 @@ def main(argv):
         st["opt"] += res["nopt"]
         st["max_rel"] = max(st["max_rel"], res["max_rel"])
         st["ill_ratio"] = max(st["ill_ratio"], res["ill_ratio"])
-        if verbose or not res["ok"]:
-            print(f"{'FAIL' if not res['ok'] else 'ok  '} [case {res['idx']}: {res['regime']}, {case['ptype']}, {case['kind']}] "
+        if res.get("ill_posed"):
+            st["ill_posed"] = st.get("ill_posed", 0) + 1
+        if verbose or not res["ok"] or res.get("ill_posed"):
+            print(f"{'FAIL' if not res['ok'] else 'ILL ' if res.get('ill_posed') else 'ok  '} [case {res['idx']}: {res['regime']}, {case['ptype']}, {case['kind']}] "
                   f"{res['cmd']}")
             print(f"     reference roots (r m, v m/s, fpa deg): {'; '.join(res['ref']) or 'none'}")
             for p in res["problems"]:
@@ -1004,6 +1035,10 @@ def main(argv):
         print(f"{rg:<26}{st['cases']:>6}{st['failed']:>7}{st['ref']:>10}{st['found']:>7}{st['missed']:>7}"
               f"{st['extra']:>6}{st['ill']:>9}{st['opt']:>9}{st['max_rel']:>13.2e}{st['ill_ratio']:>14.2e}")
     failed = sum(1 for r in results if not r["ok"])
+    ill_posed = sum(1 for r in results if r.get("ill_posed"))
+    if ill_posed:
+        print(f"{ill_posed} case(s) disagree only on ill-conditioned roots (marked ILL above): "
+              "reported, not failed (--report-ill-conditioned)")
     print(f"{len(results) - failed} passed, {failed} failed")
     return 1 if failed else 0
 

@@ -416,6 +416,17 @@ trait Line {
     fn derived(&self) -> (bool, bool) {
         (true, true)
     }
+    /// The scale on which the residual can change near `y` (the distance to
+    /// the nearest singular end of the parameter), for finite-difference
+    /// steps.
+    fn scale(&self, y: f64) -> f64 {
+        y.abs()
+    }
+}
+
+/// Distance of a flight-path angle to 0 or to +-90 deg, whichever is nearer.
+fn fpa_scale(g: f64) -> f64 {
+    g.abs().min(FRAC_PI_2 - g.abs()).max(1e-300)
 }
 
 /// Brent's root (argmin) on a [`Line`].
@@ -464,7 +475,10 @@ fn acceptance(y: f64, slope: f64) -> f64 {
 /// Central-difference slope of a line's residual at `y` (only for the
 /// acceptance bound; one-sided where one side is undefined).
 fn slope<L: Line>(line: &L, y: f64, f0: f64) -> f64 {
-    let h = 1e-7 * y.abs().max(1e-300);
+    // At least a few units in the last place of y, so the step is real.
+    let h = (1e-7 * line.scale(y))
+        .max(64.0 * f64::EPSILON * y.abs())
+        .max(1e-300);
     match (line.eval(y + h), line.eval(y - h)) {
         (Some(a), Some(b)) => (a - b) / (2.0 * h),
         (Some(a), None) => (a - f0) / h,
@@ -666,10 +680,18 @@ fn line_roots<L: Line>(line: &L, grid: &[f64]) -> (Vec<LineRoot>, bool) {
     (out, flat)
 }
 
-/// The residual's rounding noise at `y`: what [`accept`] allows there.
+/// The residual's rounding noise at `y`: the rounding of y times the slope,
+/// the state's rounding, and an evaluation floor of 64 units of 1e-16 (the
+/// residuals are sums of well-conditioned terms). A sign change between two
+/// samples both inside this band is noise; [`accept`]'s looser
+/// [`RESIDUAL_FLOOR`] only judges a refined root.
 fn noise_at<L: Line>(line: &L, y: f64) -> f64 {
     match line.eval(y) {
-        Some(f) => acceptance(y, slope(line, y, f)) + state_noise(line, y),
+        Some(f) => {
+            64.0 * f64::EPSILON
+                + 16.0 * f64::EPSILON * y.abs() * slope(line, y, f).abs()
+                + state_noise(line, y)
+        }
         None => 0.0,
     }
 }
@@ -787,6 +809,12 @@ impl Line for FreeLine<'_> {
     fn derived(&self) -> (bool, bool) {
         (false, false)
     }
+    fn scale(&self, y: f64) -> f64 {
+        match self.system.unknowns.first() {
+            Some(Unknown::FlightPathAngle) => fpa_scale(y),
+            _ => y.abs(),
+        }
+    }
 }
 
 /// The states at a fixed burnout radius whose true anomaly is fixed (by an
@@ -804,10 +832,13 @@ impl Line for AnomalySheet<'_> {
     fn state(&self, e: f64) -> Option<(f64, f64, f64)> {
         // nu = pi - angle: sin nu = sin(angle), cos nu = -cos(angle), taken
         // from the angle itself so a small angle keeps its digits.
-        let (sa, ca) = self.angle_to_apoapsis_rad.sin_cos();
-        let (sn, cn) = (sa, -ca);
+        let a = self.angle_to_apoapsis_rad;
+        let sn = a.sin();
         let r = self.radius_m;
-        let p = r * (1.0 + e * cn);
+        // 1 + e cos nu = 1 - e cos(angle) = (1 - e) + 2 e sin^2(angle/2):
+        // no cancellation just past apoapsis of a near-radial ellipse.
+        let half = (0.5 * a).sin();
+        let p = r * ((1.0 - e) + 2.0 * e * half * half);
         if !(p > 0.0 && (0.0..1.0).contains(&e)) {
             return None;
         }
@@ -818,6 +849,9 @@ impl Line for AnomalySheet<'_> {
     }
     fn residual_at(&self, r: f64, v: f64, g: f64) -> Option<f64> {
         self.system.residual_of(self.other, r, v, g)
+    }
+    fn scale(&self, e: f64) -> f64 {
+        e.min(1.0 - e)
     }
 }
 
@@ -951,6 +985,9 @@ impl Line for Sheet<'_> {
         // The energy comes from the element itself except on eccentricity
         // sheets, where it follows the rounded speed.
         (self.element.quantity == TargetQuantity::Ecc, false)
+    }
+    fn scale(&self, gamma: f64) -> f64 {
+        fpa_scale(gamma)
     }
     fn residual_at(&self, r: f64, v: f64, g: f64) -> Option<f64> {
         self.system.residual_of(self.other, r, v, g)
