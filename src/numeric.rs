@@ -1,35 +1,34 @@
 //! Numerical targeting on argmin for target sets without a closed form.
 //!
+//! (Why one long file: the line search, its sheets, the least-squares
+//! fallback and their tests share the `System` residuals; the planned
+//! restructuring splits it into `solve/numeric/{bracket,least_squares}`.)
+//!
 //! Unknowns are whichever of burnout speed, flight-path angle and burnout
 //! radius the problem leaves free (one or two). Targets may be any mix of
 //! orbit elements and the coast quantities (time to apoapsis or periapsis,
 //! angle to apoapsis).
 //!
-//! - One unknown, one target: the residual is sampled over the whole physical
-//!   domain of the unknown (512 points), every sign change is refined with
-//!   argmin's Brent root finder, and every sampled local minimum of |f| is
-//!   refined with argmin's Brent minimiser to catch tangent (double) roots.
-//!   Roots closer together than one sample spacing could merge; that is the
-//!   limit of the completeness claim.
-//! - Burnout radius fixed, speed and angle free, two targets of which one is
-//!   an orbit element: the states that meet the element exactly form one or
-//!   two sheets parametrised by the flight-path angle (closed form); the
-//!   other target's residual is bracketed along each sheet over the whole
-//!   angle range (1024 samples) and refined with Brent's root, so every root
-//!   is found up to the sampling resolution; each is then polished by the
-//!   trust-region solver below.
-//! - Otherwise (two unknowns, or more targets than unknowns): argmin's
-//!   trust-region method (Steihaug subproblem) on 0.5 |f|^2 with the
-//!   Gauss-Newton Hessian J^T J, on nalgebra vectors, from the closed-form states
-//!   where some pair of targets has one, and from a grid of starting points
-//!   over the domain. Converged results are de-duplicated. For square systems
-//!   every distinct root found is reported; the grid makes missing a root
-//!   unlikely but is not a proof.
-//! - Over-specified sets are weighted least squares, each residual divided by
-//!   its target's scale (relative for radii, sma, period, times; absolute for
-//!   eccentricity and angles; C3 relative to mu / r). When the best fit leaves
-//!   a scaled residual above [`AGREEMENT_TOLERANCE`], the targets conflict and
-//!   the error lists each residual in its own unit.
+//! - Every problem that reduces to one residual along a line is solved
+//!   completely there (`Line` and `line_roots`): one free quantity with one
+//!   target; burnout radius fixed with speed and angle free and an orbit
+//!   element beside another target (the flight-path angle along the
+//!   closed-form states meeting the element); an angle-to-apoapsis target
+//!   beside another (the eccentricity along the states at that true
+//!   anomaly). Grids are dense where the residual bends, every sign change
+//!   goes to argmin's Brent root, every sampled extremum to Brent's
+//!   minimiser (a pair of close roots or a double root), and acceptance is
+//!   scaled by the residual's own rounding, never a fixed tolerance.
+//! - Over-specified sets solve a complete square subset and check the other
+//!   targets to [`AGREEMENT_TOLERANCE`]; when none agrees the targets
+//!   conflict and the error lists each residual in its own unit.
+//! - Target sets whose solutions would form a continuous family are
+//!   refused (`check_not_a_family`).
+//! - Only systems no complete method covers (two free quantities with
+//!   neither kind of target) use argmin's trust-region method (Steihaug
+//!   subproblem) on 0.5 |f|^2 with the Gauss-Newton Hessian J^T J, from
+//!   closed-form and grid starts; each such answer carries a warning that
+//!   the search is not proven exhaustive.
 //!
 //! The solver works on smooth surrogates (1/ra, 1/a rather than ra, a and the
 //! period, which jump at the parabola); residuals are reported in the targets'
