@@ -828,7 +828,12 @@ struct AnomalySheet<'a> {
 }
 
 impl Line for AnomalySheet<'_> {
-    fn state(&self, e: f64) -> Option<(f64, f64, f64)> {
+    /// The parameter is the logit of the eccentricity, t = ln(e / (1 - e)),
+    /// so that both e (near circular) and 1 - e (near radial) are carried to
+    /// full relative precision: e = 1/(1 + exp(-t)), 1 - e = 1/(1 + exp(t)).
+    fn state(&self, t: f64) -> Option<(f64, f64, f64)> {
+        let e = 1.0 / (1.0 + (-t).exp());
+        let one_minus_e = 1.0 / (1.0 + t.exp());
         // nu = pi - angle: sin nu = sin(angle), cos nu = -cos(angle), taken
         // from the angle itself so a small angle keeps its digits.
         let a = self.angle_to_apoapsis_rad;
@@ -837,8 +842,8 @@ impl Line for AnomalySheet<'_> {
         // 1 + e cos nu = 1 - e cos(angle) = (1 - e) + 2 e sin^2(angle/2):
         // no cancellation just past apoapsis of a near-radial ellipse.
         let half = (0.5 * a).sin();
-        let p = r * ((1.0 - e) + 2.0 * e * half * half);
-        if !(p > 0.0 && (0.0..1.0).contains(&e)) {
+        let p = r * (one_minus_e + 2.0 * e * half * half);
+        if !(p > 0.0 && e > 0.0 && one_minus_e > 0.0) {
             return None;
         }
         let mu = self.system.mu;
@@ -849,25 +854,32 @@ impl Line for AnomalySheet<'_> {
     fn residual_at(&self, r: f64, v: f64, g: f64) -> Option<f64> {
         self.system.residual_of(self.other, r, v, g)
     }
-    fn scale(&self, e: f64) -> f64 {
-        e.min(1.0 - e)
+    fn scale(&self, t: f64) -> f64 {
+        t.abs().max(1.0)
     }
 }
 
-/// Eccentricities in [1e-8, 1): uniform, geometric toward 0 (near-circular,
-/// down to 1e-8: below that the true anomaly recomputed from the rounded
-/// state carries more than 1e-8 of error and the residual is noise) and
-/// toward 1 (near-parabolic, down to 1e-15).
-fn ecc_grid() -> Vec<f64> {
-    let mut g: Vec<f64> = (1..=1024).map(|k| k as f64 / 1024.0).collect();
+/// Logits of the eccentricity, ln(e / (1 - e)), for e from 1e-8 (below that
+/// the true anomaly recomputed from the rounded state carries more than
+/// 1e-8 of error and the residual is noise) to 1 - 1e-15: uniform in the
+/// logit (steps of 0.02, so e and 1 - e change by at most 2% a step) plus
+/// the geometric points 10^-k of e and of 1 - e.
+fn ecc_logit_grid() -> Vec<f64> {
+    let (lo, hi) = (
+        (1e-8f64 / (1.0 - 1e-8)).ln(),
+        ((1.0 - 1e-15f64) / 1e-15).ln(),
+    );
+    let steps = ((hi - lo) / 0.02).ceil() as usize;
+    let mut g: Vec<f64> = (0..=steps)
+        .map(|k| lo + (hi - lo) * k as f64 / steps as f64)
+        .collect();
     for k in 0..=112 {
         let d = 10f64.powf(-1.0 - k as f64 / 8.0);
-        if d >= 1e-8 {
-            g.push(d);
-        }
-        g.push(1.0 - d);
+        let l = (d / (1.0 - d)).ln();
+        g.push(l);
+        g.push(-l);
     }
-    g.retain(|e| (1e-8..1.0).contains(e));
+    g.retain(|t| (lo..=hi).contains(t));
     g.sort_by(f64::total_cmp);
     g.dedup();
     g
@@ -1292,7 +1304,7 @@ fn solve_square(system: &System, square: &Square) -> Result<SquareRoots, Error> 
                 angle_to_apoapsis_rad: system.targets[a].value,
                 other: o,
             };
-            let (states, it, flat) = roots_as_states(&sheet, &ecc_grid());
+            let (states, it, flat) = roots_as_states(&sheet, &ecc_logit_grid());
             Ok((
                 states,
                 "brent-root (argmin) bracketed over the eccentricity along the states at the targeted true anomaly",
