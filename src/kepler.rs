@@ -68,6 +68,65 @@ pub fn angle_to_apoapsis_rad(energy: EnergyRatio, flight_path_angle_rad: f64) ->
     Some(if a < 0.0 { a + 2.0 * PI } else { a })
 }
 
+/// Times of flight to the next apsides of an ellipse given by its
+/// semi-latus rectum, eccentricity (with 1 - e carried separately) and the
+/// angle still to travel to apoapsis, rad in [0, 2 pi): the form for a caller
+/// that knows the orbit and the place on it more exactly than a rounded
+/// burnout state would carry them (a burnout just past apoapsis of a
+/// near-circular orbit).
+///
+/// With nu = pi - angle, the anomaly still to go to apoapsis on the way up
+/// is x = atan2(sqrt(1 - e^2) sin(angle), cos(angle) - e) and the time is
+/// x + e sin x; on the way down the anomaly to periapsis is
+/// x = -atan2(sqrt(1 - e^2) sin(angle), e - cos(angle)) and the time
+/// (1 - e) x + e (x - sin x), both in units of a^(3/2)/sqrt(mu).
+/// `None` for e outside (0, 1) or a non-positive p.
+pub fn coast_times_on_ellipse(
+    mu_m3_s2: f64,
+    semi_latus_rectum_m: f64,
+    ecc: f64,
+    one_minus_ecc: f64,
+    angle_to_apoapsis_rad: f64,
+) -> Option<CoastTimes> {
+    let (p, e, a) = (semi_latus_rectum_m, ecc, angle_to_apoapsis_rad);
+    if !(p > 0.0 && e >= 0.0 && one_minus_ecc > 0.0 && a.is_finite()) {
+        return None;
+    }
+    let one_minus_e2 = one_minus_ecc * (1.0 + e);
+    let sq = one_minus_e2.sqrt();
+    let sma = p / one_minus_e2;
+    let unit = sma * (sma / mu_m3_s2).sqrt();
+    let half_period = PI * unit;
+    let sa = a.sin();
+    // cos(angle) - e = (1 - e) - 2 sin^2(angle/2): no cancellation near
+    // apoapsis of a near-radial ellipse.
+    let h = (0.5 * a).sin();
+    let c_minus_e = one_minus_ecc - 2.0 * h * h;
+    let out = if sa >= 0.0 {
+        let x = (sq * sa).atan2(c_minus_e);
+        let to_apo = unit * (x + e * x.sin());
+        let at_periapsis = sa == 0.0 && c_minus_e < 0.0;
+        CoastTimes {
+            to_periapsis_s: Some(if at_periapsis {
+                0.0
+            } else {
+                half_period + to_apo
+            }),
+            to_apoapsis_s: Some(to_apo),
+            since_periapsis_s: half_period - to_apo,
+        }
+    } else {
+        let x = -(sq * sa).atan2(-c_minus_e);
+        let to_peri = unit * (one_minus_ecc * x + e * x_minus_sin(x));
+        CoastTimes {
+            to_periapsis_s: Some(to_peri),
+            to_apoapsis_s: Some(half_period + to_peri),
+            since_periapsis_s: 2.0 * half_period - to_peri,
+        }
+    };
+    Some(out)
+}
+
 /// Times of flight from a burnout state to its next apsides.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct CoastTimes {
@@ -285,6 +344,27 @@ mod tests {
         let t_in = coast_times(MU, r, v, -0.3).unwrap();
         assert_relative_eq!(t_in.to_periapsis_s.unwrap(), t_out, max_relative = 1e-14);
         assert!(t_in.to_apoapsis_s.is_none());
+    }
+
+    #[test]
+    fn ellipse_form_agrees_with_the_state_form() {
+        for (e, nu) in [(0.3, 2.0), (0.3, -2.0), (1e-6, 3.1), (0.9, -0.5)] {
+            let rp = 7e6;
+            let (r, v, fpa) = state_at(rp, e, nu);
+            let a = (PI - nu).rem_euclid(2.0 * PI);
+            let from_state = coast_times(MU, r, v, fpa).unwrap();
+            let on_ellipse = coast_times_on_ellipse(MU, rp * (1.0 + e), e, 1.0 - e, a).unwrap();
+            assert_relative_eq!(
+                on_ellipse.to_apoapsis_s.unwrap(),
+                from_state.to_apoapsis_s.unwrap(),
+                max_relative = 1e-9
+            );
+            assert_relative_eq!(
+                on_ellipse.to_periapsis_s.unwrap(),
+                from_state.to_periapsis_s.unwrap(),
+                max_relative = 1e-9
+            );
+        }
     }
 
     #[test]

@@ -854,6 +854,38 @@ impl Line for AnomalySheet<'_> {
     fn residual_at(&self, r: f64, v: f64, g: f64) -> Option<f64> {
         self.system.residual_of(self.other, r, v, g)
     }
+    /// Coast times straight from (p, e, angle), which this sheet knows
+    /// exactly, rather than from the rounded state: near circular the true
+    /// anomaly recomputed from (v, fpa) keeps only a few digits.
+    fn eval(&self, t: f64) -> Option<f64> {
+        let target = self.system.targets.get(self.other)?;
+        let coast = matches!(
+            target.quantity,
+            TargetQuantity::TimeToApoapsis | TargetQuantity::TimeToPeriapsis
+        );
+        if !coast {
+            let (r, v, g) = self.state(t)?;
+            return self.residual_at(r, v, g);
+        }
+        self.state(t)?;
+        let e = 1.0 / (1.0 + (-t).exp());
+        let one_minus_e = 1.0 / (1.0 + t.exp());
+        let a = self.angle_to_apoapsis_rad;
+        let half = (0.5 * a).sin();
+        let p = self.radius_m * (one_minus_e + 2.0 * e * half * half);
+        let times = crate::kepler::coast_times_on_ellipse(self.system.mu, p, e, one_minus_e, a)?;
+        let got = if target.quantity == TargetQuantity::TimeToApoapsis {
+            times.to_apoapsis_s?
+        } else {
+            times.to_periapsis_s?
+        };
+        let res = got / target.value - 1.0;
+        res.is_finite().then_some(res)
+    }
+    fn derived(&self) -> (bool, bool) {
+        // The residual is evaluated from (p, e, angle), not the state.
+        (false, false)
+    }
     fn scale(&self, t: f64) -> f64 {
         t.abs().max(1.0)
     }

@@ -490,3 +490,36 @@ fn tiny_angle_to_apoapsis_keeps_its_digits() {
         max_relative = 1e-9
     );
 }
+
+/// Near circular, 1.47 deg past apoapsis, with a coast time: the times on
+/// the true-anomaly sheet come from (p, e, angle) directly, not from the
+/// rounded state, so the tiny angle keeps its digits. Reference:
+/// scripts/coast_reference.py (seed 2, case 10): v 750.20750961628964 m/s,
+/// fpa -6.4298764644163994e-6 deg.
+#[test]
+fn near_circular_just_past_apoapsis_keeps_the_tiny_angle() {
+    let doc = solve_json(&[
+        "--body",
+        "moon",
+        "--burnout-alt",
+        "22880019.241289683ft",
+        "--angle-to-apoapsis",
+        "358.52695452874936deg",
+        "--time-to-apoapsis",
+        "0.84096843953713302d",
+    ]);
+    let s = solutions(&doc)
+        .iter()
+        .find(|s| num(s, "/flight_path_angle_deg").abs() < 1e-3)
+        .expect("the near-circular root");
+    assert_relative_eq!(
+        num(s, "/speed_m_s"),
+        750.20750961628964,
+        max_relative = 1e-12
+    );
+    assert_relative_eq!(
+        num(s, "/flight_path_angle_deg"),
+        -6.4298764644163994e-6,
+        max_relative = 1e-9
+    );
+}
