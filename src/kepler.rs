@@ -68,6 +68,49 @@ pub fn angle_to_apoapsis_rad(energy: EnergyRatio, flight_path_angle_rad: f64) ->
     Some(if a < 0.0 { a + 2.0 * PI } else { a })
 }
 
+/// Times on an ellipse for a burnout climbing toward apoapsis, with
+/// `x_to_apo` the eccentric anomaly still to go and `e_sin` = e sin(x_to_apo),
+/// in units `unit` = a^(3/2)/sqrt(mu): time to apoapsis x + e sin x, to
+/// periapsis half a period more (0 exactly at periapsis).
+fn climbing(
+    unit: f64,
+    x_to_apo: f64,
+    e_sin: f64,
+    at_periapsis: bool,
+    since: Option<f64>,
+) -> CoastTimes {
+    let half_period = PI * unit;
+    let to_apo = unit * (x_to_apo + e_sin);
+    CoastTimes {
+        to_periapsis_s: Some(if at_periapsis {
+            0.0
+        } else {
+            half_period + to_apo
+        }),
+        to_apoapsis_s: Some(to_apo),
+        since_periapsis_s: since.unwrap_or(half_period - to_apo),
+    }
+}
+
+/// Time between periapsis and eccentric anomaly x in [0, pi] on an ellipse,
+/// (1 - e) x + e (x - sin x) in units `unit` = a^(3/2)/sqrt(mu).
+fn periapsis_to(unit: f64, e: f64, one_minus_e: f64, x: f64) -> f64 {
+    unit * (one_minus_e * x + e * x_minus_sin(x))
+}
+
+/// Times on an ellipse for a burnout descending toward periapsis, with `x`
+/// the eccentric anomaly still to go: time to periapsis [`periapsis_to`],
+/// to apoapsis half a period more.
+fn descending(unit: f64, e: f64, one_minus_e: f64, x: f64) -> CoastTimes {
+    let half_period = PI * unit;
+    let to_peri = periapsis_to(unit, e, one_minus_e, x);
+    CoastTimes {
+        to_periapsis_s: Some(to_peri),
+        to_apoapsis_s: Some(half_period + to_peri),
+        since_periapsis_s: 2.0 * half_period - to_peri,
+    }
+}
+
 /// Times of flight to the next apsides of an ellipse given by its
 /// semi-latus rectum, eccentricity (with 1 - e carried separately) and the
 /// angle still to travel to apoapsis, rad in [0, 2 pi): the form for a caller
@@ -96,7 +139,6 @@ pub fn coast_times_on_ellipse(
     let sq = one_minus_e2.sqrt();
     let sma = p / one_minus_e2;
     let unit = sma * (sma / mu_m3_s2).sqrt();
-    let half_period = PI * unit;
     let sa = a.sin();
     // cos(angle) - e = (1 - e) - 2 sin^2(angle/2): no cancellation near
     // apoapsis of a near-radial ellipse.
@@ -104,25 +146,9 @@ pub fn coast_times_on_ellipse(
     let c_minus_e = one_minus_ecc - 2.0 * h * h;
     let out = if sa >= 0.0 {
         let x = (sq * sa).atan2(c_minus_e);
-        let to_apo = unit * (x + e * x.sin());
-        let at_periapsis = sa == 0.0 && c_minus_e < 0.0;
-        CoastTimes {
-            to_periapsis_s: Some(if at_periapsis {
-                0.0
-            } else {
-                half_period + to_apo
-            }),
-            to_apoapsis_s: Some(to_apo),
-            since_periapsis_s: half_period - to_apo,
-        }
+        climbing(unit, x, e * x.sin(), sa == 0.0 && c_minus_e < 0.0, None)
     } else {
-        let x = -(sq * sa).atan2(-c_minus_e);
-        let to_peri = unit * (one_minus_ecc * x + e * x_minus_sin(x));
-        CoastTimes {
-            to_periapsis_s: Some(to_peri),
-            to_apoapsis_s: Some(half_period + to_peri),
-            since_periapsis_s: 2.0 * half_period - to_peri,
-        }
+        descending(unit, e, one_minus_ecc, -(sq * sa).atan2(-c_minus_e))
     };
     Some(out)
 }
@@ -199,7 +225,7 @@ pub fn coast_times_at(
         return None;
     }
     let (s, c) = fpa.sin_cos();
-    let descending = s < 0.0;
+    let descending_now = s < 0.0;
     let out = if two_minus_q > 0.0 {
         let k = (q * two_minus_q).sqrt();
         let e_sin = k * s;
@@ -208,31 +234,18 @@ pub fn coast_times_at(
         let one_minus_e = q * two_minus_q * c * c / (1.0 + e);
         let a = r / two_minus_q;
         let unit = a * (a / mu_m3_s2).sqrt();
-        let half_period = PI * unit;
-        // Time from periapsis to eccentric anomaly x in [0, pi].
-        let from_periapsis = |x: f64| unit * (one_minus_e * x + e * x_minus_sin(x));
-        if descending {
-            let x = (-e_sin).atan2(e_cos);
-            let to_peri = from_periapsis(x);
-            CoastTimes {
-                to_periapsis_s: Some(to_peri),
-                to_apoapsis_s: Some(half_period + to_peri),
-                since_periapsis_s: 2.0 * half_period - to_peri,
-            }
+        if descending_now {
+            descending(unit, e, one_minus_e, (-e_sin).atan2(e_cos))
         } else {
             // Anomaly still to go to apoapsis, in [0, pi].
-            let x_to_apo = e_sin.atan2(-e_cos);
-            let to_apo = unit * (x_to_apo + e_sin);
-            let at_periapsis = e_sin == 0.0 && e_cos >= 0.0;
-            CoastTimes {
-                to_periapsis_s: Some(if at_periapsis {
-                    0.0
-                } else {
-                    half_period + to_apo
-                }),
-                to_apoapsis_s: Some(to_apo),
-                since_periapsis_s: from_periapsis(e_sin.atan2(e_cos)),
-            }
+            let since = periapsis_to(unit, e, one_minus_e, e_sin.atan2(e_cos));
+            climbing(
+                unit,
+                e_sin.atan2(-e_cos),
+                e_sin,
+                e_sin == 0.0 && e_cos >= 0.0,
+                Some(since),
+            )
         }
     } else if two_minus_q < 0.0 {
         let q_minus_2 = -two_minus_q;

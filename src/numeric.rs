@@ -827,28 +827,31 @@ struct AnomalySheet<'a> {
     other: usize,
 }
 
+impl AnomalySheet<'_> {
+    /// (e, 1 - e, p) at the parameter t, the logit of the eccentricity:
+    /// e = 1/(1 + exp(-t)), 1 - e = 1/(1 + exp(t)), each to full relative
+    /// precision, and p = r (1 + e cos nu) with nu = pi - angle written as
+    /// (1 - e) + 2 e sin^2(angle/2), which does not cancel just past
+    /// apoapsis of a near-radial ellipse. `None` off the sheet.
+    fn orbit(&self, t: f64) -> Option<(f64, f64, f64)> {
+        let e = 1.0 / (1.0 + (-t).exp());
+        let one_minus_e = 1.0 / (1.0 + t.exp());
+        let half = (0.5 * self.angle_to_apoapsis_rad).sin();
+        let p = self.radius_m * (one_minus_e + 2.0 * e * half * half);
+        (p > 0.0 && e > 0.0 && one_minus_e > 0.0).then_some((e, one_minus_e, p))
+    }
+}
+
 impl Line for AnomalySheet<'_> {
     /// The parameter is the logit of the eccentricity, t = ln(e / (1 - e)),
     /// so that both e (near circular) and 1 - e (near radial) are carried to
     /// full relative precision: e = 1/(1 + exp(-t)), 1 - e = 1/(1 + exp(t)).
     fn state(&self, t: f64) -> Option<(f64, f64, f64)> {
-        let e = 1.0 / (1.0 + (-t).exp());
-        let one_minus_e = 1.0 / (1.0 + t.exp());
-        // nu = pi - angle: sin nu = sin(angle), cos nu = -cos(angle), taken
-        // from the angle itself so a small angle keeps its digits.
-        let a = self.angle_to_apoapsis_rad;
-        let sn = a.sin();
+        let (e, _, p) = self.orbit(t)?;
         let r = self.radius_m;
-        // 1 + e cos nu = 1 - e cos(angle) = (1 - e) + 2 e sin^2(angle/2):
-        // no cancellation just past apoapsis of a near-radial ellipse.
-        let half = (0.5 * a).sin();
-        let p = r * (one_minus_e + 2.0 * e * half * half);
-        if !(p > 0.0 && e > 0.0 && one_minus_e > 0.0) {
-            return None;
-        }
         let mu = self.system.mu;
         let v_t = (mu * p).sqrt() / r;
-        let v_r = (mu / p).sqrt() * e * sn;
+        let v_r = (mu / p).sqrt() * e * self.angle_to_apoapsis_rad.sin();
         Some((r, v_t.hypot(v_r), v_r.atan2(v_t)))
     }
     fn residual_at(&self, r: f64, v: f64, g: f64) -> Option<f64> {
@@ -867,12 +870,8 @@ impl Line for AnomalySheet<'_> {
             let (r, v, g) = self.state(t)?;
             return self.residual_at(r, v, g);
         }
-        self.state(t)?;
-        let e = 1.0 / (1.0 + (-t).exp());
-        let one_minus_e = 1.0 / (1.0 + t.exp());
+        let (e, one_minus_e, p) = self.orbit(t)?;
         let a = self.angle_to_apoapsis_rad;
-        let half = (0.5 * a).sin();
-        let p = self.radius_m * (one_minus_e + 2.0 * e * half * half);
         let times = crate::kepler::coast_times_on_ellipse(self.system.mu, p, e, one_minus_e, a)?;
         let got = if target.quantity == TargetQuantity::TimeToApoapsis {
             times.to_apoapsis_s?
