@@ -1443,7 +1443,7 @@ fn checked_roots(
         &method,
         iterations,
         "every bracketed root refined to its rounding limit".into(),
-        false,
+        None,
     ))
 }
 
@@ -1462,6 +1462,9 @@ fn least_squares(
         Some((r, v, gamma)) => vec![system.coords_of(r, v, gamma)],
         None => seeds(system),
     };
+    // Only a search from the seed grid is stated as not proven exhaustive
+    // (a single forced start is a convergence test, not a search).
+    let seed_count = start.is_none().then_some(starts.len());
     let mut runs: Vec<Run> = starts
         .into_iter()
         .filter_map(|x0| trust_region(system, x0))
@@ -1536,7 +1539,7 @@ fn least_squares(
         method,
         iterations,
         termination,
-        start.is_none(),
+        seed_count,
     ))
 }
 fn report(
@@ -1546,7 +1549,7 @@ fn report(
     method: &str,
     iterations: u64,
     termination: String,
-    from_starting_points: bool,
+    seed_count: Option<usize>,
 ) -> Solved {
     let residuals = states
         .first()
@@ -1562,11 +1565,9 @@ fn report(
             residuals,
         },
     );
-    if from_starting_points {
+    if let Some(starts) = seed_count {
         for s in &mut solved.solutions {
-            s.warnings.push(Warning::SearchNotExhaustive {
-                starts: seeds(system).len(),
-            });
+            s.warnings.push(Warning::SearchNotExhaustive { starts });
         }
     }
     solved
@@ -1650,7 +1651,7 @@ fn check_fixed_state(problem: &Problem, system: &System) -> Result<Solved, Error
         "closed-form check of a fixed burnout state",
         0,
         "targets agree".into(),
-        false,
+        None,
     ))
 }
 
