@@ -1,7 +1,7 @@
 //! Criterion benchmarks (timings live here, never in tests):
 //!
 //! - one closed-form solve with sensitivities through `burnout::solve`, and
-//!   the same through the allocation-free `burnout::lean::solve_pair`;
+//!   the same through the allocation-free `burnout::solve::fast_pair::solve_pair`;
 //! - a 1,000,000-point burnout-altitude scan, both branches, to CSV in memory;
 //! - a 100,000-row batch, CSV in memory to CSV in memory.
 //!
@@ -9,7 +9,7 @@
 //! same jobs as whole processes writing files.
 
 use burnout::batch::{Batch, BatchOptions};
-use burnout::inputs::{problem_from_inputs, Inputs};
+use burnout::input::problem::{problem_from_inputs, Inputs};
 use burnout::scan::{Plan, ScanFormat, ScanOptions};
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
 use std::hint::black_box;
@@ -34,7 +34,7 @@ fn closed_form_solve(c: &mut Criterion) {
     c.bench_function("solve closed-form pair with sensitivities", |b| {
         b.iter(|| burnout::solve(black_box(&problem)).expect("solves"))
     });
-    // The same answer without heap allocation (burnout::lean).
+    // The same answer without heap allocation (burnout::solve::fast_pair).
     let (body, targets, r) = (
         problem.body.clone(),
         problem.targets.clone(),
@@ -42,7 +42,7 @@ fn closed_form_solve(c: &mut Criterion) {
     );
     c.bench_function("lean closed-form pair with sensitivities", |b| {
         b.iter(|| {
-            burnout::lean::solve_pair(
+            burnout::solve::fast_pair::solve_pair(
                 black_box(&body),
                 black_box(&targets[0]),
                 black_box(&targets[1]),

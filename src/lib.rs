@@ -5,9 +5,9 @@
 //! both branches, with analytic sensitivities and feasibility checks.
 //!
 //! ```
-//! use burnout::body::Body;
-//! use burnout::orbit::Conic;
-//! use burnout::invert::burnout_for_conic;
+//! use burnout::physics::body::Body;
+//! use burnout::physics::orbit::Conic;
+//! use burnout::solve::invert::burnout_for_conic;
 //!
 //! let earth = Body::from_name("earth").unwrap();
 //! let rp = earth.radius_m + 185e3;
@@ -19,33 +19,24 @@
 //! ```
 //!
 //! The core works in SI units and radians; degrees and user units appear only
-//! at the edges ([`units`], [`report`]).
+//! at the edges ([`input`], [`report`]).
 #![warn(missing_docs)]
 #![deny(clippy::float_cmp)]
 
 pub mod batch;
-pub mod body;
-pub mod budget;
-pub mod case;
 pub mod error;
-pub mod feasibility;
-pub mod grid;
-pub mod inputs;
-pub mod invert;
-pub mod kepler;
-pub mod lean;
-pub mod numeric;
-pub mod orbit;
-pub mod output;
-pub mod problem;
+pub mod input;
+pub mod physics;
 pub mod report;
 pub mod scan;
-pub mod sensitivity;
-pub mod site;
+pub mod solve;
 #[cfg(test)]
 pub(crate) mod strategies;
-pub mod target;
-pub mod units;
 
 pub use error::{Error, ErrorClass};
-pub use problem::{solve, Problem, Solved};
+pub use physics::body::Body;
+pub use physics::site::SiteInputs;
+pub use physics::state::{Branch, BurnoutState};
+pub use solve::problem::{Problem, Solution, Solved};
+pub use solve::solve;
+pub use solve::target::{Target, TargetQuantity};

@@ -2,7 +2,6 @@
 //! codes: 0 solved, 2 usage or unparseable value, 3 infeasible.
 
 mod cli;
-mod diag;
 
 use burnout::ErrorClass;
 use clap::Parser;
@@ -39,7 +38,7 @@ fn remove_temporaries_on_signals() {
     };
     std::thread::spawn(move || {
         if let Some(sig) = signals.forever().next() {
-            burnout::output::cleanup_then(|| {
+            cli::output::cleanup_then(|| {
                 let _ = signal_hook::low_level::emulate_default_handler(sig);
                 std::process::exit(128 + sig);
             });
@@ -48,7 +47,7 @@ fn remove_temporaries_on_signals() {
 }
 
 fn main() -> ExitCode {
-    diag::check_standard_streams();
+    cli::diag::check_standard_streams();
     remove_temporaries_on_signals();
     let cli = match cli::Cli::try_parse() {
         Ok(c) => c,
@@ -59,18 +58,18 @@ fn main() -> ExitCode {
                 return match cli::emit(e.render().to_string().as_bytes()) {
                     Ok(()) => ExitCode::SUCCESS,
                     Err(e) => {
-                        diag::line(&format!("error: {e}"));
+                        cli::diag::line(&format!("error: {e}"));
                         ExitCode::from(2)
                     }
                 };
             }
             if e.kind() == ErrorKind::DisplayHelpOnMissingArgumentOrSubcommand {
-                diag::line(
+                cli::diag::line(
                     "error: missing subcommand: expected solve, scan, batch or budget (see 'burnout --help')",
                 );
                 return ExitCode::from(2);
             }
-            diag::line(&format!(
+            cli::diag::line(&format!(
                 "error: {} (see 'burnout --help')",
                 one_line(&e.render().to_string())
             ));
@@ -80,7 +79,7 @@ fn main() -> ExitCode {
     match cli::run(cli) {
         Ok(code) => ExitCode::from(code as u8),
         Err(e) => {
-            diag::line(&format!("error: {}", e.to_string().replace('\n', " ")));
+            cli::diag::line(&format!("error: {}", e.to_string().replace('\n', " ")));
             match e.class() {
                 ErrorClass::Usage => ExitCode::from(2),
                 ErrorClass::Infeasible => ExitCode::from(3),

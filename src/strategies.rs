@@ -1,12 +1,12 @@
 //! Shared proptest strategies with physical ranges (test-only).
 
-use crate::body::Body;
-use crate::orbit::Conic;
+use crate::physics::body::Body;
+use crate::physics::orbit::Conic;
 use proptest::prelude::*;
 
 /// A catalog body.
 pub fn body() -> impl Strategy<Value = Body> {
-    proptest::sample::select(crate::body::CATALOG.to_vec())
+    proptest::sample::select(crate::physics::body::CATALOG.to_vec())
         .prop_map(|n| Body::from_name(n).unwrap())
 }
 

@@ -5,10 +5,10 @@
 //! Also checks time of flight to apoapsis independently of Kepler's equation.
 
 use approx::assert_relative_eq;
-use burnout::body::Body;
-use burnout::invert::burnout_for_conic;
-use burnout::kepler::coast_times;
-use burnout::orbit::Conic;
+use burnout::physics::body::Body;
+use burnout::physics::kepler::coast_times;
+use burnout::physics::orbit::Conic;
+use burnout::solve::invert::burnout_for_conic;
 
 type State = [f64; 4]; // planar: x, y, vx, vy
 
@@ -257,8 +257,8 @@ fn solver_answer_for_a_coast_time_reaches_apoapsis_at_that_time() {
     // Numerically solved (no closed form): burnout at 220 km for a 1200 km
     // apoapsis reached after a 45 min coast. Integrating the two-body
     // equations for 45 min from each solution must end at apoapsis.
-    use burnout::problem::{solve, Problem};
-    use burnout::target::{Target, TargetQuantity};
+    use burnout::solve::target::{Target, TargetQuantity};
+    use burnout::{solve, Problem};
     let body = Body::from_name("earth").unwrap();
     let mu = body.mu_m3_s2;
     let ra = body.radius_m + 1_200e3;
@@ -272,6 +272,7 @@ fn solver_answer_for_a_coast_time_reaches_apoapsis_at_that_time() {
         flight_path_angle_rad: None,
         speed_m_s: None,
         min_periapsis_alt_m: None,
+        site: None,
         body,
     };
     let solved = solve(&problem).unwrap();
@@ -360,8 +361,8 @@ fn integrated_coast_roots_in_hard_regimes_reach_periapsis_on_time() {
     // integrating the two-body
     // equations for the targeted time from each ends at periapsis (radial
     // speed through zero, radius at its minimum).
-    use burnout::problem::{solve, Problem};
-    use burnout::target::{Target, TargetQuantity};
+    use burnout::solve::target::{Target, TargetQuantity};
+    use burnout::{solve, Problem};
     let earth = Body::from_name("earth").unwrap();
     let cases = [Problem {
         burnout_radius_m: None,
@@ -373,6 +374,7 @@ fn integrated_coast_roots_in_hard_regimes_reach_periapsis_on_time() {
         flight_path_angle_rad: Some((-0.007_680_298_369_656_212f64).to_radians()),
         speed_m_s: Some(6_527.456_784_168_85),
         min_periapsis_alt_m: None,
+        site: None,
         body: earth,
     }];
     for p in &cases {

@@ -1,6 +1,6 @@
 //! Case-file reader: any text parses to inputs or a one-line error.
 #![no_main]
-use burnout::case::parse_case;
+use burnout::input::case::parse_case;
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {

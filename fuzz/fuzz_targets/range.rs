@@ -1,8 +1,8 @@
 //! Range parser: any text, any kind; an accepted grid has at least one
 //! point and finite points at both ends.
 #![no_main]
-use burnout::grid::parse_range;
-use burnout::units::Kind;
+use burnout::input::range::parse_range;
+use burnout::input::units::Kind;
 use libfuzzer_sys::fuzz_target;
 
 const KINDS: [Kind; 8] = [

@@ -1,7 +1,7 @@
 //! Value parser: any text, any kind; an error is fine, a panic is not, and
 //! an accepted value is finite.
 #![no_main]
-use burnout::units::{parse, Kind};
+use burnout::input::units::{parse, Kind};
 use libfuzzer_sys::fuzz_target;
 
 const KINDS: [Kind; 8] = [

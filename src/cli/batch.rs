@@ -1,9 +1,9 @@
 //! `burnout batch`: one targeting problem per row of a CSV file, streamed.
 
+use super::diag;
+use super::output::AtomicFile;
 use super::progress::Progress;
-use crate::diag;
 use burnout::batch::{Batch, BatchError, BatchOptions};
-use burnout::output::AtomicFile;
 use burnout::Error;
 use std::io::{BufReader, BufWriter, Read};
 use std::path::PathBuf;
@@ -59,7 +59,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
         .map(|p| AtomicFile::create(p, args.force, "--out"))
         .transpose()?;
     if let (Some(f), false) = (&out_file, shown == "-") {
-        if burnout::output::resolved_input(&args.input).as_deref() == Some(f.path()) {
+        if crate::cli::output::resolved_input(&args.input).as_deref() == Some(f.path()) {
             return Err(Error::Usage(format!(
                 "--out '{}' is the batch input '{shown}': write the results to another file",
                 args.out.as_deref().unwrap_or(f.path()).display()

@@ -1,10 +1,10 @@
 //! `burnout budget`: burnout error budget for a solved targeting problem.
 
 use super::{Format, ProblemArgs};
-use burnout::budget::{allowed_errors, map_errors};
-use burnout::case::overlay;
-use burnout::inputs::{budget_from_inputs, solve_inputs, Inputs};
+use burnout::input::case::overlay;
+use burnout::input::problem::{budget_from_inputs, solve_inputs, Inputs};
 use burnout::report::budget::{write_json, write_table, BudgetReport};
+use burnout::solve::budget::{allowed_errors, map_errors};
 use burnout::Error;
 
 /// Arguments of `burnout budget`.
@@ -99,8 +99,8 @@ pub fn run(args: Args) -> Result<i32, Error> {
     for s in &solved.solutions {
         let keep = match args.branch {
             BranchArg::Both => true,
-            BranchArg::Ascending => s.state.branch == burnout::invert::Branch::Ascending,
-            BranchArg::Descending => s.state.branch == burnout::invert::Branch::Descending,
+            BranchArg::Ascending => s.state.branch == burnout::physics::state::Branch::Ascending,
+            BranchArg::Descending => s.state.branch == burnout::physics::state::Branch::Descending,
         };
         if !keep {
             continue;
@@ -160,11 +160,12 @@ fn check_budget_magnitudes(inputs: &Inputs) -> Result<(), Error> {
         "ecc-tol",
         "period-tol",
     ] {
-        let (Some(text), Some(kind)) = (inputs.get(key), burnout::inputs::kind_of(key)) else {
+        let (Some(text), Some(kind)) = (inputs.get(key), burnout::input::problem::kind_of(key))
+        else {
             continue;
         };
         let flag = format!("--{key}");
-        let Ok(value) = burnout::units::parse(&flag, text, kind) else {
+        let Ok(value) = burnout::input::units::parse(&flag, text, kind) else {
             continue; // budget_from_inputs has reported it already
         };
         if value.si != 0.0 && value.si.abs() < MIN_BUDGET_SI {

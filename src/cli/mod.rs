@@ -2,12 +2,14 @@
 
 pub mod batch;
 pub mod budget;
+pub mod diag;
+pub mod output;
 pub mod progress;
 pub mod scan;
 pub mod solve;
 
-use burnout::case::{overlay, parse_case};
-use burnout::inputs::Inputs;
+use burnout::input::case::{overlay, parse_case};
+use burnout::input::problem::Inputs;
 use burnout::Error;
 use clap::{Args, Parser, Subcommand, ValueEnum};
 
@@ -248,7 +250,7 @@ pub fn reject_empty(flags: &Inputs) -> Result<(), Error> {
             return Err(Error::InvalidValue {
                 flag: format!("--{key}"),
                 text: text.clone(),
-                kind: burnout::inputs::kind_of(key)
+                kind: burnout::input::problem::kind_of(key)
                     .map(|k| k.name())
                     .unwrap_or("value"),
                 reason: "empty value".into(),
@@ -271,7 +273,7 @@ pub fn run(cli: Cli) -> Result<i32, Error> {
 /// An error unless standard output can take the run's output: a run
 /// started with standard output closed (`>&-`) would lose it silently.
 pub fn require_stdout() -> Result<(), Error> {
-    if crate::diag::stdout_closed() {
+    if crate::cli::diag::stdout_closed() {
         return Err(Error::Usage(
             "standard output is closed: nothing can be written (redirect it, or give --out where available)".into(),
         ));

@@ -1,8 +1,8 @@
 //! `burnout scan`: a targeting table over ranges of any solve inputs.
 
+use super::output::AtomicFile;
 use super::progress::Progress;
 use super::{Format, ProblemArgs, UnitsArg};
-use burnout::output::AtomicFile;
 use burnout::report::rows::BranchChoice;
 use burnout::scan::{Plan, ScanFormat, ScanOptions};
 use burnout::Error;
@@ -124,7 +124,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
         }
     }
     if let Some(case) = &args.problem.case {
-        let case_path = burnout::output::resolved_input(Path::new(case));
+        let case_path = crate::cli::output::resolved_input(Path::new(case));
         for (flag, f, given) in [
             ("--out", &out_file, args.out.as_deref()),
             ("--plot", &plot_file, args.plot.as_deref()),
@@ -186,9 +186,9 @@ pub fn run(args: Args) -> Result<i32, Error> {
             files.push(f);
         }
     }
-    burnout::output::commit_all(files)?;
+    crate::cli::output::commit_all(files)?;
     if report.solved == 0 {
-        crate::diag::line(&format!(
+        crate::cli::diag::line(&format!(
             "error: no point of the scan solved ({} infeasible, {} invalid): see the status column",
             report.infeasible, report.invalid
         ));
@@ -202,9 +202,9 @@ pub fn run(args: Args) -> Result<i32, Error> {
         for (i, line) in plan.summary_lines(&report, opts.units).iter().enumerate() {
             if i == 0 {
                 let secs = progress.elapsed().as_secs_f64();
-                crate::diag::line(&format!("{line} in {secs:.2} s"));
+                crate::cli::diag::line(&format!("{line} in {secs:.2} s"));
             } else {
-                crate::diag::line(line);
+                crate::cli::diag::line(line);
             }
         }
     }

@@ -1,7 +1,7 @@
 //! `burnout solve`.
 
 use super::{Format, ProblemArgs, UnitsArg};
-use burnout::inputs::solve_inputs;
+use burnout::input::problem::solve_inputs;
 use burnout::report;
 use burnout::Error;
 

@@ -1,8 +1,8 @@
 //! Error-budget reports: human table and JSON.
 
-use crate::budget::{Allowed, RowError};
 use crate::error::g;
-use crate::problem::Solution;
+use crate::solve::budget::{Allowed, RowError};
+use crate::solve::problem::Solution;
 use serde::Serialize;
 use std::io::Write;
 
@@ -130,7 +130,7 @@ pub fn write_json(out: &mut impl Write, reports: &[BudgetReport]) -> std::io::Re
                             exact_limit: finite(ax.exact_limit),
                         })
                         .collect(),
-                    extent: crate::budget::COMPONENTS
+                    extent: crate::solve::budget::COMPONENTS
                         .iter()
                         .enumerate()
                         .map(|(k, c)| {
@@ -246,7 +246,7 @@ pub fn write_table(out: &mut impl Write, reports: &[BudgetReport]) -> std::io::R
             }
             writeln!(out)?;
             writeln!(out, "  joint region (first-order ellipsoid inside every tolerance, each axis cut where the exact forward map first breaks one):")?;
-            for (k, c) in crate::budget::COMPONENTS.iter().enumerate() {
+            for (k, c) in crate::solve::budget::COMPONENTS.iter().enumerate() {
                 writeln!(
                     out,
                     "  {:<18} up to +/-{} on the ellipsoid",

@@ -1,8 +1,8 @@
 //! CSV columns and rows for solved problems (shared by `solve --format csv`,
 //! `scan` and `batch`).
 
-use crate::problem::{Solution, Solved};
-use crate::sensitivity::{COLS, ROWS};
+use crate::solve::problem::{Solution, Solved};
+use crate::solve::sensitivity::{COLS, ROWS};
 use std::io::Write;
 
 /// Result columns after the input columns, in order.
@@ -37,7 +37,7 @@ pub const SITE_COLUMNS: [&str; 8] = [
 ];
 
 /// The values of [`SITE_COLUMNS`] for a site state.
-pub fn site_values(site: Option<&crate::site::SiteState>) -> [Option<f64>; 8] {
+pub fn site_values(site: Option<&crate::physics::site::SiteState>) -> [Option<f64>; 8] {
     match site {
         None => [None; 8],
         Some(x) => [

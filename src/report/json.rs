@@ -1,7 +1,7 @@
 //! JSON wire types (serialize-only, SI with units in the keys) and writer.
 
-use crate::problem::{Solution, Solved};
-use crate::sensitivity::{COLS, ROWS};
+use crate::solve::problem::{Solution, Solved};
+use crate::solve::sensitivity::{COLS, ROWS};
 use serde::Serialize;
 use std::io::Write;
 

@@ -7,14 +7,14 @@
 //! scan writes millions of rows.
 
 use crate::error::Error;
-use crate::feasibility::Warning;
-use crate::invert::Branch;
-use crate::invert::BurnoutState;
-use crate::problem::{Solution, Solved};
-use crate::sensitivity::Sensitivity;
+use crate::physics::state::Branch;
+use crate::physics::state::BurnoutState;
+use crate::solve::feasibility::Warning;
+use crate::solve::problem::{Solution, Solved};
+use crate::solve::sensitivity::Sensitivity;
 
 /// The parts of a solution that a row shows (a [`Solution`], or the
-/// allocation-free answer of [`crate::lean`]).
+/// allocation-free answer of [`crate::solve::fast_pair`]).
 #[derive(Debug, Clone, Copy)]
 pub struct SolutionView<'a> {
     /// The burnout state and its orbit.
@@ -24,7 +24,7 @@ pub struct SolutionView<'a> {
     /// Its warnings.
     pub warnings: &'a [Warning],
     /// Its launch-site geometry, if a site was given.
-    pub site: Option<&'a crate::site::SiteState>,
+    pub site: Option<&'a crate::physics::site::SiteState>,
 }
 
 impl<'a> From<&'a Solution> for SolutionView<'a> {
@@ -312,7 +312,7 @@ impl<'a> Record<'a> {
     }
 
     /// The [`super::csv::SITE_COLUMNS`] fields (blank without a site state).
-    pub fn site(&mut self, site: Option<&crate::site::SiteState>) -> &mut Self {
+    pub fn site(&mut self, site: Option<&crate::physics::site::SiteState>) -> &mut Self {
         for v in super::csv::site_values(site) {
             self.opt(v);
         }
@@ -336,7 +336,7 @@ impl<'a> Record<'a> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::inputs::{problem_from_inputs, Inputs};
+    use crate::input::problem::{problem_from_inputs, Inputs};
     use crate::report::csv::{failure_fields, solution_fields};
 
     fn solved(pairs: &[(&str, &str)]) -> Solved {

@@ -1,8 +1,8 @@
 //! Human-readable tables.
 
 use crate::error::g;
-use crate::problem::Solved;
-use crate::units::{FT_M, NMI_M};
+use crate::input::units::{FT_M, NMI_M};
+use crate::solve::problem::Solved;
 use std::io::Write;
 
 /// Units for human output.

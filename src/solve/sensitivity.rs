@@ -106,7 +106,10 @@ pub fn partials(
 /// Partials for a solved state, with rows nulled by the state's own conic
 /// (the classification the user sees), not by an eccentricity recomputed from
 /// the rounded state: an exact parabola has no sma, apoapsis or period rows.
-pub fn partials_for_state(mu_m3_s2: f64, state: &crate::invert::BurnoutState) -> Sensitivity {
+pub fn partials_for_state(
+    mu_m3_s2: f64,
+    state: &crate::physics::state::BurnoutState,
+) -> Sensitivity {
     rows_of_conic(
         partials(
             mu_m3_s2,
@@ -121,7 +124,7 @@ pub fn partials_for_state(mu_m3_s2: f64, state: &crate::invert::BurnoutState) ->
 /// As [`partials_for_state`], with the flight-path-angle column per radian.
 pub fn partials_per_rad_for_state(
     mu_m3_s2: f64,
-    state: &crate::invert::BurnoutState,
+    state: &crate::physics::state::BurnoutState,
 ) -> Sensitivity {
     rows_of_conic(
         partials_per_rad(
@@ -136,7 +139,7 @@ pub fn partials_per_rad_for_state(
 
 /// Nulls the rows the conic does not have (apoapsis and period of an open
 /// orbit, sma of a parabola).
-fn rows_of_conic(mut s: Sensitivity, conic: &crate::orbit::Conic) -> Sensitivity {
+fn rows_of_conic(mut s: Sensitivity, conic: &crate::physics::orbit::Conic) -> Sensitivity {
     if conic.apoapsis_radius_m().is_none() {
         s.rows[1] = None;
         s.rows[4] = None;
@@ -151,10 +154,10 @@ fn rows_of_conic(mut s: Sensitivity, conic: &crate::orbit::Conic) -> Sensitivity
 #[allow(clippy::float_cmp)] // exact zeros, exact parabolas and mirror images are asserted on purpose
 mod tests {
     use super::*;
-    use crate::orbit::forward;
+    use crate::physics::orbit::forward;
     use approx::assert_relative_eq;
 
-    const MU: f64 = crate::body::EARTH_MU_M3_S2;
+    const MU: f64 = crate::physics::body::EARTH_MU_M3_S2;
 
     fn values(r: f64, v: f64, g: f64) -> [f64; 5] {
         let (c, _) = forward(MU, r, v, g).unwrap();
@@ -216,8 +219,8 @@ mod tests {
 
     #[test]
     fn exact_parabola_has_null_sma_apoapsis_and_period_rows() {
-        let conic = crate::orbit::Conic::from_periapsis_ecc(6_578_137.0, 1.0).unwrap();
-        let st = crate::invert::burnout_for_conic(MU, &conic, 6_578_137.0).unwrap()[0];
+        let conic = crate::physics::orbit::Conic::from_periapsis_ecc(6_578_137.0, 1.0).unwrap();
+        let st = crate::solve::invert::burnout_for_conic(MU, &conic, 6_578_137.0).unwrap()[0];
         let s = partials_for_state(MU, &st);
         assert!(s.rows[1].is_none() && s.rows[2].is_none() && s.rows[4].is_none());
         assert!(s.rows[0].is_some() && s.rows[3].is_some());
@@ -240,7 +243,7 @@ mod tests {
 #[cfg(test)]
 mod properties {
     use super::*;
-    use crate::orbit::forward;
+    use crate::physics::orbit::forward;
     use crate::strategies::burnout_state;
     use proptest::prelude::*;
 

@@ -34,16 +34,17 @@
 //! period, which jump at the parabola); residuals are reported in the targets'
 //! own units.
 
-use crate::body::Body;
 use crate::error::{g, Error};
-use crate::feasibility::Warning;
-use crate::invert::{burnout_for_conic, forward_state, BurnoutState};
+use crate::physics::body::Body;
 #[cfg(test)]
-use crate::kepler::coast_times;
-use crate::kepler::coast_times_at;
-use crate::orbit::EnergyRatio;
-use crate::problem::{finish, Problem, Solved, SolverReport};
-use crate::target::{conic_from_pair, Target, TargetQuantity};
+use crate::physics::kepler::coast_times;
+use crate::physics::kepler::coast_times_at;
+use crate::physics::orbit::EnergyRatio;
+use crate::physics::state::{forward_state, BurnoutState};
+use crate::solve::feasibility::Warning;
+use crate::solve::invert::burnout_for_conic;
+use crate::solve::problem::{finish, Problem, Solved, SolverReport};
+use crate::solve::target::{conic_from_pair, Target, TargetQuantity};
 use argmin::core::{CostFunction, Executor, Gradient, Hessian, State, TerminationStatus};
 use argmin::solver::brent::{BrentOpt, BrentRoot};
 use argmin::solver::trustregion::{Steihaug, TrustRegion};
@@ -247,8 +248,8 @@ impl System {
             Q::TimeToApoapsis => coast_times_at(mu, r, gamma, energy)?.to_apoapsis_s? / x - 1.0,
             Q::TimeToPeriapsis => coast_times_at(mu, r, gamma, energy)?.to_periapsis_s? / x - 1.0,
             Q::AngleToApoapsis => {
-                let d =
-                    (crate::kepler::angle_to_apoapsis_rad(energy, gamma)? - x).rem_euclid(2.0 * PI);
+                let d = (crate::physics::kepler::angle_to_apoapsis_rad(energy, gamma)? - x)
+                    .rem_euclid(2.0 * PI);
                 if d > PI {
                     d - 2.0 * PI
                 } else {
@@ -872,7 +873,8 @@ impl Line for AnomalySheet<'_> {
         }
         let (e, one_minus_e, p) = self.orbit(t)?;
         let a = self.angle_to_apoapsis_rad;
-        let times = crate::kepler::coast_times_on_ellipse(self.system.mu, p, e, one_minus_e, a)?;
+        let times =
+            crate::physics::kepler::coast_times_on_ellipse(self.system.mu, p, e, one_minus_e, a)?;
         let got = if target.quantity == TargetQuantity::TimeToApoapsis {
             times.to_apoapsis_s?
         } else {
@@ -918,7 +920,7 @@ fn ecc_logit_grid() -> Vec<f64> {
 
 /// One sheet of the one-parameter family of burnout states that meet an
 /// orbit-element target exactly: for each flight-path angle, the k-th speed
-/// of [`crate::invert::speed_for_target`]. The other target's residual along
+/// of [`crate::solve::invert::speed_for_target`]. The other target's residual along
 /// it is a function of the angle alone.
 struct Sheet<'a> {
     system: &'a System,
@@ -1009,9 +1011,13 @@ impl Sheet<'_> {
 
 impl Line for Sheet<'_> {
     fn state(&self, gamma: f64) -> Option<(f64, f64, f64)> {
-        let speeds =
-            crate::invert::speed_for_target(self.system.mu, self.radius_m, gamma, self.element)
-                .ok()?;
+        let speeds = crate::solve::invert::speed_for_target(
+            self.system.mu,
+            self.radius_m,
+            gamma,
+            self.element,
+        )
+        .ok()?;
         let v = speeds.get(self.k)?.speed_m_s;
         Some((self.radius_m, v, gamma))
     }
@@ -1419,7 +1425,7 @@ fn checked_roots(
         if over && (worst.is_nan() || worst > AGREEMENT_TOLERANCE) {
             continue;
         }
-        crate::invert::check_speed(v)?;
+        crate::physics::state::check_speed(v)?;
         let st = forward_state(system.mu, r, v, g)?;
         states.push(st);
     }
@@ -1520,7 +1526,7 @@ fn least_squares(
         });
         if !dup {
             if let (Ok(_), Ok(st)) = (
-                crate::invert::check_speed(v),
+                crate::physics::state::check_speed(v),
                 forward_state(mu, r, v, gamma),
             ) {
                 states.push(st);
@@ -1553,7 +1559,7 @@ fn report(
 ) -> Solved {
     let residuals = states
         .first()
-        .map(|st| crate::problem::target_residuals(system.mu, &system.targets, st))
+        .map(|st| crate::solve::problem::target_residuals(system.mu, &system.targets, st))
         .unwrap_or_default();
     let mut solved = finish(
         problem,
@@ -1574,7 +1580,7 @@ fn report(
 }
 
 fn describe_residuals(system: &System, st: &BurnoutState) -> String {
-    crate::problem::target_residuals(system.mu, &system.targets, st)
+    crate::solve::problem::target_residuals(system.mu, &system.targets, st)
         .iter()
         .zip(&system.targets)
         .map(|((_, d), t)| {
@@ -1658,7 +1664,7 @@ fn check_fixed_state(problem: &Problem, system: &System) -> Result<Solved, Error
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::orbit::Conic;
+    use crate::physics::orbit::Conic;
     use approx::assert_relative_eq;
     use TargetQuantity as Q;
 
@@ -1674,6 +1680,7 @@ mod tests {
             flight_path_angle_rad: g,
             speed_m_s: v,
             min_periapsis_alt_m: None,
+            site: None,
         }
     }
 
@@ -1747,7 +1754,7 @@ mod tests {
         let system = System::new(&p).unwrap();
         let s = solve_system(&p, &system, None).unwrap();
         assert_eq!(s.solutions.len(), 2);
-        let closed = crate::invert::speed_for_target(
+        let closed = crate::solve::invert::speed_for_target(
             earth().mu_m3_s2,
             r,
             g,
@@ -1878,7 +1885,7 @@ mod tests {
 #[cfg(test)]
 mod properties {
     use super::*;
-    use crate::orbit::Conic;
+    use crate::physics::orbit::Conic;
     use crate::strategies::body;
     use proptest::prelude::*;
     use TargetQuantity as Q;
@@ -1952,6 +1959,7 @@ mod properties {
                 flight_path_angle_rad: None,
                 speed_m_s: None,
                 min_periapsis_alt_m: None,
+                site: None,
             };
             let v0 = v_factor * exact[0].speed_m_s;
             match solve_from(&problem, (r, v0, g_deg.to_radians())) {

@@ -398,7 +398,7 @@ mod tests {
     use super::*;
     use approx::assert_relative_eq;
 
-    const MU: f64 = crate::body::EARTH_MU_M3_S2;
+    const MU: f64 = crate::physics::body::EARTH_MU_M3_S2;
 
     #[test]
     fn apsides_give_textbook_quantities() {
@@ -503,7 +503,7 @@ mod tests {
         // Regression: C3 from mu (e - 1)/rp cancelled for e -> 1 with rp -> 0;
         // the energy form v^2 - 2 mu/r does not (checked against a 50-digit
         // independent computation: 1625257.673 m^2/s^2 at 300 km, 11 km/s).
-        let r = crate::body::EARTH_RADIUS_M + 300e3;
+        let r = crate::physics::body::EARTH_RADIUS_M + 300e3;
         let (c, _) = forward(MU, r, 11_000.0, 89.99999f64.to_radians()).unwrap();
         assert_relative_eq!(
             c.c3_m2_s2(MU),

@@ -4,11 +4,11 @@
 //!
 //! Burnout errors are ordered (speed m/s, flight-path angle rad, burnout
 //! radius m); orbit rows are (periapsis radius m, apoapsis radius m, sma m,
-//! ecc, period s), as in [`crate::sensitivity`].
+//! ecc, period s), as in [`crate::solve::sensitivity`].
 
 use crate::error::{g, Error};
-use crate::invert::{forward_state, BurnoutState};
-use crate::sensitivity::{partials_per_rad_for_state, ROWS};
+use crate::physics::state::{forward_state, BurnoutState};
+use crate::solve::sensitivity::{partials_per_rad_for_state, ROWS};
 use argmin::core::{CostFunction, Executor, State};
 use argmin::solver::brent::BrentRoot;
 use nalgebra::{Matrix3, SymmetricEigen, Vector3};
@@ -473,9 +473,9 @@ pub fn allowed_errors(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::body::Body;
-    use crate::invert::burnout_for_conic;
-    use crate::orbit::Conic;
+    use crate::physics::body::Body;
+    use crate::physics::orbit::Conic;
+    use crate::solve::invert::burnout_for_conic;
     use approx::assert_relative_eq;
     use rand::SeedableRng;
     use rand_distr::{Distribution, StandardNormal};
@@ -587,7 +587,7 @@ mod tests {
             rows: [Some(5e3), Some(50e3), None, Some(1e-3), None],
         };
         let a = allowed_errors(mu, &st, &tol).unwrap();
-        let j = crate::sensitivity::partials_per_rad(
+        let j = crate::solve::sensitivity::partials_per_rad(
             mu,
             st.radius_m,
             st.speed_m_s,

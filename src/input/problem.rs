@@ -5,11 +5,11 @@
 //! `burnout-alt`, `burnout-radius`, `periapsis-alt`, ..., `fpa`, `zenith`,
 //! `speed`, `min-periapsis-alt`.
 
-use crate::body::Body;
 use crate::error::Error;
-use crate::problem::Problem;
-use crate::target::{Target, TargetQuantity};
-use crate::units::{parse_si, Kind};
+use crate::input::units::{parse_si, Kind};
+use crate::physics::body::Body;
+use crate::solve::problem::Problem;
+use crate::solve::target::{Target, TargetQuantity};
 use std::collections::BTreeMap;
 
 /// Named text inputs, keyed by flag name without dashes.
@@ -113,7 +113,7 @@ pub const SITE_KEYS: &[(&str, Kind)] = &[
 pub fn site_from_inputs(
     inputs: &Inputs,
     body: &Body,
-) -> Result<Option<crate::site::SiteInputs>, Error> {
+) -> Result<Option<crate::physics::site::SiteInputs>, Error> {
     let lat = num(inputs, "latitude", Kind::Angle)?;
     let others = ["longitude", "azimuth", "downrange", "inclination"];
     let Some(lat) = lat else {
@@ -127,7 +127,7 @@ pub fn site_from_inputs(
     let downrange_rad = match get(inputs, "downrange") {
         None => 0.0,
         Some(text) => {
-            let p = crate::units::parse("--downrange", text, Kind::AngleOrLength)?;
+            let p = crate::input::units::parse("--downrange", text, Kind::AngleOrLength)?;
             if p.kind == Kind::Length {
                 p.si / body.radius_m
             } else {
@@ -135,14 +135,14 @@ pub fn site_from_inputs(
             }
         }
     };
-    let site = crate::site::SiteInputs {
+    let site = crate::physics::site::SiteInputs {
         latitude_geodetic_rad: lat,
         longitude_rad: num(inputs, "longitude", Kind::Angle)?.unwrap_or(0.0),
         azimuth_rad: num(inputs, "azimuth", Kind::Angle)?,
         downrange_rad,
         inclination_rad: num(inputs, "inclination", Kind::Angle)?,
     };
-    crate::site::validate(&site).map_err(|e| {
+    crate::physics::site::validate(&site).map_err(|e| {
         let key = match &e {
             Error::OutOfRange {
                 quantity: "latitude",
@@ -169,12 +169,8 @@ pub fn site_from_inputs(
 ///
 /// # Errors
 /// Any input or solve error.
-pub fn solve_inputs(inputs: &Inputs) -> Result<crate::problem::Solved, Error> {
-    let problem = problem_from_inputs(inputs)?;
-    let solved = match site_from_inputs(inputs, &problem.body)? {
-        Some(site) => crate::site::solve_with_site(&problem, &site)?,
-        None => crate::problem::solve(&problem)?,
-    };
+pub fn solve_inputs(inputs: &Inputs) -> Result<crate::solve::problem::Solved, Error> {
+    let solved = crate::solve::solve(&problem_from_inputs(inputs)?)?;
     solved.check_finite()?;
     Ok(solved)
 }
@@ -203,8 +199,8 @@ pub fn budget_from_inputs(
     inputs: &Inputs,
 ) -> Result<
     (
-        Option<crate::budget::BurnoutErrors>,
-        Option<crate::budget::Tolerances>,
+        Option<crate::solve::budget::BurnoutErrors>,
+        Option<crate::solve::budget::Tolerances>,
     ),
     Error,
 > {
@@ -236,7 +232,7 @@ pub fn budget_from_inputs(
     let any_sigma = ["speed-sigma", "fpa-sigma", "alt-sigma"]
         .iter()
         .any(|k| v.contains_key(k));
-    let errors = any_sigma.then(|| crate::budget::BurnoutErrors {
+    let errors = any_sigma.then(|| crate::solve::budget::BurnoutErrors {
         speed_sigma_m_s: v.get("speed-sigma").copied().unwrap_or(0.0),
         fpa_sigma_rad: v.get("fpa-sigma").copied().unwrap_or(0.0),
         radius_sigma_m: v.get("alt-sigma").copied().unwrap_or(0.0),
@@ -275,7 +271,7 @@ pub fn budget_from_inputs(
         tol_keys
             .iter()
             .any(|k| v.contains_key(k))
-            .then(|| crate::budget::Tolerances {
+            .then(|| crate::solve::budget::Tolerances {
                 rows: tol_keys.map(|k| v.get(k).copied()),
             });
     Ok((errors, tolerances))
@@ -391,7 +387,8 @@ pub fn problem_from_inputs(inputs: &Inputs) -> Result<Problem, Error> {
                 .into(),
         )),
         (Some(f), None) => Some(
-            crate::orbit::check_fpa(f).map_err(|e| about_flag(inputs, "fpa", Kind::Angle, e))?,
+            crate::physics::orbit::check_fpa(f)
+                .map_err(|e| about_flag(inputs, "fpa", Kind::Angle, e))?,
         ),
         (None, Some(z)) => {
             if !(0.0..=std::f64::consts::PI).contains(&z) {
@@ -410,7 +407,7 @@ pub fn problem_from_inputs(inputs: &Inputs) -> Result<Problem, Error> {
             // 90 - z in degrees is exact for a zenith typed in degrees;
             // pi/2 - z in radians would lose the digits of a small angle.
             Some(
-                match get(inputs, "zenith").and_then(crate::units::degrees_as_given) {
+                match get(inputs, "zenith").and_then(crate::input::units::degrees_as_given) {
                     Some(z_deg) => (90.0 - z_deg).to_radians(),
                     None => std::f64::consts::FRAC_PI_2 - z,
                 },
@@ -418,18 +415,22 @@ pub fn problem_from_inputs(inputs: &Inputs) -> Result<Problem, Error> {
         }
         (None, None) => None,
     };
+    let speed_m_s = num(inputs, "speed", Kind::Speed)?
+        .map(|v| {
+            crate::error::positive("burnout speed", v, "m/s")
+                .map_err(|e| about_flag(inputs, "speed", Kind::Speed, e))
+        })
+        .transpose()?;
+    let min_periapsis_alt_m = num(inputs, "min-periapsis-alt", Kind::Length)?;
+    let site = site_from_inputs(inputs, &body)?;
     Ok(Problem {
         body,
         burnout_radius_m,
         targets,
         flight_path_angle_rad,
-        speed_m_s: num(inputs, "speed", Kind::Speed)?
-            .map(|v| {
-                crate::error::positive("burnout speed", v, "m/s")
-                    .map_err(|e| about_flag(inputs, "speed", Kind::Speed, e))
-            })
-            .transpose()?,
-        min_periapsis_alt_m: num(inputs, "min-periapsis-alt", Kind::Length)?,
+        speed_m_s,
+        min_periapsis_alt_m,
+        site,
     })
 }
 

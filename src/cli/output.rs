@@ -25,7 +25,7 @@
 //!   may set them);
 //! - an existing device or pipe (e.g. `/dev/null`) is written directly.
 
-use crate::error::Error;
+use burnout::Error;
 use std::fs::File;
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -275,15 +275,6 @@ impl AtomicFile {
     /// with equal paths are one file.
     pub fn path(&self) -> &Path {
         &self.path
-    }
-
-    /// The temporary file's path (for tests and messages); the target itself
-    /// for a device or pipe.
-    pub fn temp_path(&self) -> &Path {
-        match &self.sink {
-            Sink::Temp(Some(t)) => t.path(),
-            _ => &self.path,
-        }
     }
 
     /// The file to write into.

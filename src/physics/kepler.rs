@@ -8,7 +8,7 @@
 //! (Vallado, *Fundamentals of Astrodynamics and Applications*, 4th ed., sec. 2.2-2.3;
 //! Curtis, *Orbital Mechanics for Engineering Students*, ch. 3.)
 
-use crate::orbit::EnergyRatio;
+use crate::physics::orbit::EnergyRatio;
 use std::f64::consts::PI;
 
 /// x - sin x, accurate for small x (series below 0.5 rad).
@@ -172,7 +172,7 @@ pub struct CoastTimes {
 /// radial orbits.
 ///
 /// With Q = r v^2 / mu (and Q - 1, 2 - Q to double-double accuracy, see
-/// [`crate::orbit::EnergyRatio`]), the eccentric anomaly comes from two
+/// [`crate::physics::orbit::EnergyRatio`]), the eccentric anomaly comes from two
 /// well-conditioned components, e cos E = Q - 1 and
 /// e sin E = sqrt(Q (2 - Q)) sin(fpa), and 1 - e = Q (2 - Q) cos^2(fpa) / (1 + e).
 /// The time from periapsis to an anomaly x is a^(3/2)/sqrt(mu) times
@@ -284,7 +284,7 @@ mod tests {
     use super::*;
     use approx::assert_relative_eq;
 
-    const MU: f64 = crate::body::EARTH_MU_M3_S2;
+    const MU: f64 = crate::physics::body::EARTH_MU_M3_S2;
 
     /// Burnout state (r, v, fpa) on the conic (rp, e) at true anomaly nu.
     fn state_at(rp: f64, e: f64, nu: f64) -> (f64, f64, f64) {
@@ -406,7 +406,7 @@ mod tests {
         // mpmath (E from atan2(sqrt(Q(2-Q)) sin fpa, Q - 1), M = E - e sin E,
         // times as (T - M/n) mod T and (T/2 - M/n) mod T; hyperbola
         // e sinh F - F), taking these doubles as exact inputs; run 2026-12-02.
-        let re = crate::body::EARTH_RADIUS_M;
+        let re = crate::physics::body::EARTH_RADIUS_M;
         // (r, v, fpa, time to periapsis, time to apoapsis)
         let cases: [(f64, f64, f64, f64, Option<f64>); 4] = [
             // Near-parabolic ellipse, 1 - v/v_esc = 1e-7, climbing at 30 deg.

@@ -13,76 +13,10 @@
 //!   for ellipses, e cos nu = (rp (ra - r) - ra (r - rp)) / (r (rp + ra)).
 
 use crate::error::{g, positive, Error};
-use crate::orbit::{check_fpa, forward, Conic};
-use crate::target::{conic_from_pair, Target, TargetQuantity};
+use crate::physics::orbit::{check_fpa, Conic};
+use crate::physics::state::{check_speed, forward_state, Branch, BurnoutState, APSIS_TOLERANCE};
+use crate::solve::target::{conic_from_pair, Target, TargetQuantity};
 use std::f64::consts::PI;
-
-/// Relative tolerance within which a burnout radius counts as at an apsis.
-pub const APSIS_TOLERANCE: f64 = 1e-12;
-
-/// Speed of light in vacuum, m/s (exact, SI definition): no two-body answer
-/// at or above it is physical.
-pub const SPEED_OF_LIGHT_M_S: f64 = 299_792_458.0;
-
-/// Checks that a computed burnout speed is finite and below the speed of light.
-///
-/// # Errors
-/// [`Error::Infeasible`] naming the speed.
-pub fn check_speed(speed_m_s: f64) -> Result<f64, Error> {
-    if speed_m_s.is_finite() && speed_m_s < SPEED_OF_LIGHT_M_S {
-        Ok(speed_m_s)
-    } else {
-        Err(Error::Infeasible(format!(
-            "the target needs a burnout speed of {} m/s, not below the speed of light {} m/s: no physical trajectory reaches it (check the target's magnitude)",
-            g(speed_m_s),
-            g(SPEED_OF_LIGHT_M_S)
-        )))
-    }
-}
-
-/// Which side of the orbit burnout is on.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-pub enum Branch {
-    /// Flight-path angle >= 0, true anomaly in [0, 180] deg (climbing).
-    Ascending,
-    /// Flight-path angle <= 0, true anomaly in [180, 360) deg (descending).
-    Descending,
-}
-
-impl Branch {
-    /// Lower-case name used in machine output.
-    pub fn name(self) -> &'static str {
-        match self {
-            Branch::Ascending => "ascending",
-            Branch::Descending => "descending",
-        }
-    }
-}
-
-/// A burnout state on a target orbit.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct BurnoutState {
-    /// Which branch.
-    pub branch: Branch,
-    /// Burnout radius, m.
-    pub radius_m: f64,
-    /// Inertial burnout speed, m/s.
-    pub speed_m_s: f64,
-    /// Flight-path angle above the local horizontal, rad.
-    pub flight_path_angle_rad: f64,
-    /// True anomaly at burnout, rad in [0, 2 pi).
-    pub true_anomaly_rad: f64,
-    /// The orbit this state is on.
-    pub conic: Conic,
-}
-
-fn branch_of(fpa_rad: f64) -> Branch {
-    if fpa_rad < 0.0 {
-        Branch::Descending
-    } else {
-        Branch::Ascending
-    }
-}
 
 /// Both burnout states (ascending and descending) at radius `radius_m` on `conic`.
 ///
@@ -98,8 +32,88 @@ pub fn burnout_for_conic(
     radius_m: f64,
 ) -> Result<Vec<BurnoutState>, Error> {
     // One implementation, allocation-free, shared with the fast scan path.
-    let (states, n) = crate::lean::pair_states(mu_m3_s2, conic, radius_m)?;
+    let (states, n) = pair_states(mu_m3_s2, conic, radius_m)?;
     Ok(states[..n].to_vec())
+}
+
+/// Both burnout states at `radius_m` on `conic`, ascending first; one at an
+/// apsis. The closed-form inversion itself (formulas at the top of this module),
+/// on the stack; [`burnout_for_conic`] wraps it in a `Vec`.
+///
+/// # Errors
+/// [`Error::BelowPeriapsis`] / [`Error::AboveApoapsis`] when the orbit never
+/// passes through the radius; a radius that is not finite and positive.
+pub fn pair_states(
+    mu_m3_s2: f64,
+    conic: &Conic,
+    radius_m: f64,
+) -> Result<([BurnoutState; 2], usize), Error> {
+    positive("burnout radius", radius_m, "m")?;
+    let rp = conic.periapsis_radius_m();
+    let r = radius_m;
+    if r < rp * (1.0 - APSIS_TOLERANCE) {
+        return Err(Error::BelowPeriapsis {
+            burnout_radius_m: r,
+            periapsis_radius_m: rp,
+        });
+    }
+    let apo = conic.apoapsis_radius_m();
+    if let Some(ra) = apo {
+        if r > ra * (1.0 + APSIS_TOLERANCE) {
+            return Err(Error::AboveApoapsis {
+                burnout_radius_m: r,
+                apoapsis_radius_m: ra,
+            });
+        }
+    }
+    let p = conic.semi_latus_rectum_m();
+    let h = (mu_m3_s2 * p).sqrt();
+    let vt = h / r;
+    let at_periapsis = (r - rp).abs() <= APSIS_TOLERANCE * rp;
+    let at_apoapsis = apo.is_some_and(|ra| (r - ra).abs() <= APSIS_TOLERANCE * ra);
+    let state = |branch, speed_m_s, flight_path_angle_rad, true_anomaly_rad| BurnoutState {
+        branch,
+        radius_m: r,
+        speed_m_s,
+        flight_path_angle_rad,
+        true_anomaly_rad,
+        conic: *conic,
+    };
+    if at_periapsis || at_apoapsis {
+        check_speed(vt)?;
+        let nu = if at_periapsis { 0.0 } else { PI };
+        let s = state(Branch::Ascending, vt, 0.0, nu);
+        return Ok(([s, s], 1));
+    }
+    let (vr, ecos, esin) = match apo {
+        Some(ra) => {
+            let s = rp + ra;
+            let prod = (r - rp) * (ra - r);
+            let vr = (2.0 * mu_m3_s2 * prod / s).sqrt() / r;
+            let ecos = (rp * (ra - r) - ra * (r - rp)) / (r * s);
+            let esin = 2.0 * (prod * rp * ra).sqrt() / (r * s);
+            (vr, ecos, esin)
+        }
+        None => {
+            let e = conic.ecc();
+            let k = rp * (1.0 + e) + r * (e - 1.0);
+            let vr = (mu_m3_s2 * (r - rp) * k / rp).sqrt() / r;
+            let ecos = (p - r) / r;
+            let esin = vr * h / mu_m3_s2;
+            (vr, ecos, esin)
+        }
+    };
+    let speed = vr.hypot(vt);
+    check_speed(speed)?;
+    let fpa = vr.atan2(vt);
+    let nu = esin.atan2(ecos);
+    Ok((
+        [
+            state(Branch::Ascending, speed, fpa, nu),
+            state(Branch::Descending, speed, -fpa, 2.0 * PI - nu),
+        ],
+        2,
+    ))
 }
 
 /// The burnout states on `conic` whose flight-path angle is `fpa_rad`, with
@@ -177,27 +191,6 @@ pub fn burnout_for_conic_at_speed(
         )));
     }
     burnout_for_conic(mu_m3_s2, conic, r)
-}
-
-/// The state reached by the forward map, labelled by the sign of the angle.
-///
-/// # Errors
-/// As [`forward`].
-pub fn forward_state(
-    mu_m3_s2: f64,
-    radius_m: f64,
-    speed_m_s: f64,
-    flight_path_angle_rad: f64,
-) -> Result<BurnoutState, Error> {
-    let (conic, nu) = forward(mu_m3_s2, radius_m, speed_m_s, flight_path_angle_rad)?;
-    Ok(BurnoutState {
-        branch: branch_of(flight_path_angle_rad),
-        radius_m,
-        speed_m_s,
-        flight_path_angle_rad,
-        true_anomaly_rad: nu,
-        conic,
-    })
 }
 
 /// The burnout speed(s) that reach one target quantity at a given
@@ -323,7 +316,7 @@ pub fn speed_for_target(
             if x < 1.0 && qm > 0.0 && d > 0.0 {
                 qs.insert(0, qm);
             }
-            if crate::orbit::exactly(x, 1.0) {
+            if crate::physics::orbit::exactly(x, 1.0) {
                 // A parabola: exactly escape speed.
                 qs = vec![2.0];
             }
@@ -368,7 +361,7 @@ pub fn speed_for_target(
             }
             (Q::PeriapsisRadius, Some(ra)) => Conic::from_apsides(x, ra.max(x)).unwrap_or(st.conic),
             (Q::PeriapsisRadius, None) => st.conic.with_periapsis(x),
-            (Q::Ecc, _) if crate::orbit::exactly(x, 1.0) => {
+            (Q::Ecc, _) if crate::physics::orbit::exactly(x, 1.0) => {
                 Conic::from_periapsis_ecc(st.conic.periapsis_radius_m(), 1.0).unwrap_or(st.conic)
             }
             (Q::Ecc, _) => st.conic.with_ecc(x),
@@ -454,10 +447,11 @@ pub fn fpa_for_speed(
 #[allow(clippy::float_cmp)] // exact zeros, exact parabolas and mirror images are asserted on purpose
 mod tests {
     use super::*;
+    use crate::physics::orbit::forward;
     use approx::assert_relative_eq;
 
-    const MU: f64 = crate::body::EARTH_MU_M3_S2;
-    const RE: f64 = crate::body::EARTH_RADIUS_M;
+    const MU: f64 = crate::physics::body::EARTH_MU_M3_S2;
+    const RE: f64 = crate::physics::body::EARTH_RADIUS_M;
 
     #[test]
     fn perigee_burnout_into_transfer_orbit_matches_vis_viva() {
@@ -621,6 +615,7 @@ mod tests {
 #[cfg(test)]
 mod properties {
     use super::*;
+    use crate::physics::orbit::forward;
     use crate::strategies::{burnout_state, targeted};
     use proptest::prelude::*;
 

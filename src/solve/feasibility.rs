@@ -1,9 +1,9 @@
 //! Feasibility warnings for a solved burnout state: checks that do not stop
 //! the answer but that an analyst must see.
 
-use crate::body::Body;
 use crate::error::g;
-use crate::invert::BurnoutState;
+use crate::physics::body::Body;
+use crate::physics::state::BurnoutState;
 use std::f64::consts::PI;
 
 /// A warning about a solved state.
@@ -119,7 +119,7 @@ pub fn check_state(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::invert::forward_state;
+    use crate::physics::state::forward_state;
     use approx::assert_relative_eq;
 
     #[test]

@@ -2,7 +2,7 @@
 //! into a conic.
 
 use crate::error::{finite, g, positive, Error};
-use crate::orbit::{check_ecc, Conic};
+use crate::physics::orbit::{check_ecc, Conic};
 use std::f64::consts::PI;
 
 /// A quantity of the target orbit (or of the coast to it) that can be asked for.
@@ -331,7 +331,7 @@ fn conic_from_size(mu: f64, x: &Target, s: &Target, alpha: f64) -> Result<Conic,
         }
         Q::Ecc => {
             if alpha == 0.0 {
-                if crate::orbit::exactly(u, 1.0) {
+                if crate::physics::orbit::exactly(u, 1.0) {
                     return Err(Error::Usage(format!(
                         "{} 1 and {} both say 'parabola' and leave its size free: give a periapsis or semi-latus rectum",
                         x.flag, s.flag
@@ -392,7 +392,7 @@ mod tests {
     use approx::assert_relative_eq;
     use TargetQuantity as Q;
 
-    const MU: f64 = crate::body::EARTH_MU_M3_S2;
+    const MU: f64 = crate::physics::body::EARTH_MU_M3_S2;
 
     fn t(q: Q, v: f64) -> Target {
         Target::new(q, v, "--x")

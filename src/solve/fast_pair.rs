@@ -6,19 +6,18 @@
 //! residuals, the solver report) and costs a few heap allocations per call;
 //! this function gives the same states and partials, bit for bit (a unit
 //! test holds them together), for callers that solve millions of pairs.
-//! [`pair_states`] is the one implementation of the closed-form inversion
-//! (on the stack); [`crate::invert::burnout_for_conic`] wraps it in a `Vec`.
-//! The formulas and their references are documented in [`crate::invert`].
+//! The inversion itself is [`pair_states`], the allocation-free form of
+//! [`burnout_for_conic`]; the formulas and their references are documented
+//! in [`crate::solve::invert`].
 //! Feasibility warnings are not built; [`LeanSolved::suborbital`] says
 //! whether the periapsis is under the surface.
 
-use crate::body::Body;
 use crate::error::{positive, Error};
-use crate::invert::{Branch, BurnoutState, APSIS_TOLERANCE};
-use crate::orbit::Conic;
-use crate::sensitivity::{partials_for_state, Sensitivity};
-use crate::target::{conic_from_pair, Target};
-use std::f64::consts::PI;
+use crate::physics::body::Body;
+use crate::physics::state::BurnoutState;
+use crate::solve::invert::pair_states;
+use crate::solve::sensitivity::{partials_for_state, Sensitivity};
+use crate::solve::target::{conic_from_pair, Target};
 
 /// Up to two burnout states with their partials.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -38,85 +37,6 @@ impl LeanSolved {
     pub fn states(&self) -> &[BurnoutState] {
         &self.states[..self.len]
     }
-}
-
-/// Both burnout states at `radius_m` on `conic`, ascending first; one at an
-/// apsis. The closed-form inversion itself (see [`crate::invert`] for the formulas).
-///
-/// # Errors
-/// [`Error::BelowPeriapsis`] / [`Error::AboveApoapsis`] when the orbit never
-/// passes through the radius; a radius that is not finite and positive.
-pub fn pair_states(
-    mu_m3_s2: f64,
-    conic: &Conic,
-    radius_m: f64,
-) -> Result<([BurnoutState; 2], usize), Error> {
-    positive("burnout radius", radius_m, "m")?;
-    let rp = conic.periapsis_radius_m();
-    let r = radius_m;
-    if r < rp * (1.0 - APSIS_TOLERANCE) {
-        return Err(Error::BelowPeriapsis {
-            burnout_radius_m: r,
-            periapsis_radius_m: rp,
-        });
-    }
-    let apo = conic.apoapsis_radius_m();
-    if let Some(ra) = apo {
-        if r > ra * (1.0 + APSIS_TOLERANCE) {
-            return Err(Error::AboveApoapsis {
-                burnout_radius_m: r,
-                apoapsis_radius_m: ra,
-            });
-        }
-    }
-    let p = conic.semi_latus_rectum_m();
-    let h = (mu_m3_s2 * p).sqrt();
-    let vt = h / r;
-    let at_periapsis = (r - rp).abs() <= APSIS_TOLERANCE * rp;
-    let at_apoapsis = apo.is_some_and(|ra| (r - ra).abs() <= APSIS_TOLERANCE * ra);
-    let state = |branch, speed_m_s, flight_path_angle_rad, true_anomaly_rad| BurnoutState {
-        branch,
-        radius_m: r,
-        speed_m_s,
-        flight_path_angle_rad,
-        true_anomaly_rad,
-        conic: *conic,
-    };
-    if at_periapsis || at_apoapsis {
-        crate::invert::check_speed(vt)?;
-        let nu = if at_periapsis { 0.0 } else { PI };
-        let s = state(Branch::Ascending, vt, 0.0, nu);
-        return Ok(([s, s], 1));
-    }
-    let (vr, ecos, esin) = match apo {
-        Some(ra) => {
-            let s = rp + ra;
-            let prod = (r - rp) * (ra - r);
-            let vr = (2.0 * mu_m3_s2 * prod / s).sqrt() / r;
-            let ecos = (rp * (ra - r) - ra * (r - rp)) / (r * s);
-            let esin = 2.0 * (prod * rp * ra).sqrt() / (r * s);
-            (vr, ecos, esin)
-        }
-        None => {
-            let e = conic.ecc();
-            let k = rp * (1.0 + e) + r * (e - 1.0);
-            let vr = (mu_m3_s2 * (r - rp) * k / rp).sqrt() / r;
-            let ecos = (p - r) / r;
-            let esin = vr * h / mu_m3_s2;
-            (vr, ecos, esin)
-        }
-    };
-    let speed = vr.hypot(vt);
-    crate::invert::check_speed(speed)?;
-    let fpa = vr.atan2(vt);
-    let nu = esin.atan2(ecos);
-    Ok((
-        [
-            state(Branch::Ascending, speed, fpa, nu),
-            state(Branch::Descending, speed, -fpa, 2.0 * PI - nu),
-        ],
-        2,
-    ))
 }
 
 /// Burnout speed and flight-path angle on both branches, with partials, for
@@ -169,7 +89,7 @@ pub fn solve_pair(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::target::TargetQuantity as Q;
+    use crate::solve::target::TargetQuantity as Q;
 
     #[test]
     fn lean_pair_gives_the_same_bits_as_solve() {
@@ -206,6 +126,7 @@ mod tests {
                     flight_path_angle_rad: None,
                     speed_m_s: None,
                     min_periapsis_alt_m: None,
+                    site: None,
                 };
                 match (crate::solve(&problem), solve_pair(&earth, &a, &b, r)) {
                     (Ok(full), Ok(lean)) => {

@@ -12,7 +12,7 @@
 //! units of the same kind (`100nmi..500km:10km`).
 
 use crate::error::{g, Error};
-use crate::units::{parse, Kind};
+use crate::input::units::{parse, Kind};
 
 /// Largest number of points one range, or a whole scan, may have. A guard
 /// against a slip such as `:1m` over 40 000 km, not a limit of the engine.
@@ -105,7 +105,7 @@ pub fn out_unit(kind: Kind) -> &'static str {
     }
 }
 
-/// SI unit text that [`crate::units::parse`] reads back exactly (used to
+/// SI unit text that [`crate::input::units::parse`] reads back exactly (used to
 /// hand a grid value to the input parser).
 pub fn si_unit_text(kind: Kind) -> &'static str {
     match kind {
@@ -122,7 +122,7 @@ pub fn si_unit_text(kind: Kind) -> &'static str {
 /// Splits one part of a range into its number text and unit text, exactly
 /// as the value reader does.
 fn split_part(text: &str) -> (&str, &str) {
-    crate::units::split(text)
+    crate::input::units::split(text)
 }
 
 const OTHER_KINDS: [Kind; 6] = [

@@ -15,7 +15,7 @@
 //! Values are strings with units or bare numbers (default units).
 
 use crate::error::Error;
-use crate::inputs::Inputs;
+use crate::input::problem::Inputs;
 
 /// Keys allowed in each section, and the input key each maps to.
 const SECTIONS: &[(&str, &[(&str, &str)])] = &[

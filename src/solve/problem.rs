@@ -1,14 +1,14 @@
-//! A whole targeting problem and its solution: the one entry point that
-//! `solve`, `scan` and `batch` share.
+//! A whole targeting problem and its solution: the types that `solve`,
+//! `scan`, `batch` and every solver share, and the finishing step that turns
+//! burnout states into solutions (partials, warnings, residuals, order).
 
-use crate::body::Body;
-use crate::error::{g, positive, Error};
-use crate::feasibility::{check_state, Warning};
-use crate::invert::{
-    burnout_for_conic, forward_state, fpa_for_speed, speed_for_target, BurnoutState,
-};
-use crate::sensitivity::Sensitivity;
-use crate::target::{conic_from_pair, Target, TargetQuantity};
+use crate::error::{g, Error};
+use crate::physics::body::Body;
+use crate::physics::site::SiteInputs;
+use crate::physics::state::BurnoutState;
+use crate::solve::feasibility::{check_state, Warning};
+use crate::solve::sensitivity::Sensitivity;
+use crate::solve::target::{Target, TargetQuantity};
 
 /// A targeting problem in SI units.
 #[derive(Debug, Clone, PartialEq)]
@@ -26,6 +26,9 @@ pub struct Problem {
     pub speed_m_s: Option<f64>,
     /// Lowest periapsis altitude treated as safe, m; `None` uses the body's default.
     pub min_periapsis_alt_m: Option<f64>,
+    /// The launch site the vehicle flies from, if any: the launch azimuth is
+    /// then part of the answer (see [`crate::solve::launch`]).
+    pub site: Option<SiteInputs>,
 }
 
 /// One solution: a burnout state with its sensitivities and warnings.
@@ -38,7 +41,7 @@ pub struct Solution {
     /// Warnings about this solution.
     pub warnings: Vec<Warning>,
     /// Launch-site geometry, when a site was given.
-    pub site: Option<crate::site::SiteState>,
+    pub site: Option<crate::physics::site::SiteState>,
     /// Achieved minus targeted value of each target at this solution, keyed
     /// as [`TargetQuantity::key`] (SI; the angle to apoapsis in degrees).
     pub residuals: Vec<(String, f64)>,
@@ -157,8 +160,8 @@ pub fn check_state_finite(
     Ok(())
 }
 
-fn coast(mu_m3_s2: f64, state: &BurnoutState) -> Option<crate::kepler::CoastTimes> {
-    crate::kepler::coast_times(
+fn coast(mu_m3_s2: f64, state: &BurnoutState) -> Option<crate::physics::kepler::CoastTimes> {
+    crate::physics::kepler::coast_times(
         mu_m3_s2,
         state.radius_m,
         state.speed_m_s,
@@ -182,127 +185,12 @@ pub fn achieved(mu_m3_s2: f64, state: &BurnoutState, q: TargetQuantity) -> Optio
         TargetQuantity::TimeToPeriapsis => coast(mu_m3_s2, state)?.to_periapsis_s,
         TargetQuantity::AngleToApoapsis => {
             c.apoapsis_radius_m()?;
-            crate::kepler::angle_to_apoapsis_rad(
-                crate::orbit::EnergyRatio::new(mu_m3_s2, state.radius_m, state.speed_m_s),
+            crate::physics::kepler::angle_to_apoapsis_rad(
+                crate::physics::orbit::EnergyRatio::new(mu_m3_s2, state.radius_m, state.speed_m_s),
                 state.flight_path_angle_rad,
             )
         }
     }
-}
-
-/// Solves a targeting problem.
-///
-/// Closed forms answer: two orbit-element targets; one target with a fixed
-/// flight-path angle or speed; speed and angle with no target (the forward
-/// problem). Any other combination goes to the numerical solver.
-///
-/// # Errors
-/// [`Error::BelowSurface`] for a burnout radius under the surface; the errors
-/// of the inversions; [`Error::Usage`] for an under-specified problem.
-pub fn solve(problem: &Problem) -> Result<Solved, Error> {
-    let body = &problem.body;
-    let mu = body.mu_m3_s2;
-    for t in &problem.targets {
-        t.validate()?;
-    }
-    if let Some(v) = problem.speed_m_s {
-        positive("burnout speed", v, "m/s")?;
-    }
-    if let Some(fpa) = problem.flight_path_angle_rad {
-        crate::orbit::check_fpa(fpa)?;
-    }
-    let Some(r) = problem.burnout_radius_m else {
-        if let Some(solved) = free_radius_closed_form(problem)? {
-            return Ok(solved);
-        }
-        if problem.speed_m_s.is_none() && problem.flight_path_angle_rad.is_none() {
-            return Err(Error::Usage(
-                "missing burnout point: give --burnout-alt or --burnout-radius (or --fpa or --speed with target quantities to solve for the burnout altitude)".into(),
-            ));
-        }
-        if problem.targets.is_empty() {
-            return Err(Error::Usage(
-                "--speed and --fpa without a burnout point need a target quantity to solve for the burnout altitude".into(),
-            ));
-        }
-        return crate::numeric::solve_numeric(problem);
-    };
-    let r = positive("burnout radius", r, "m")?;
-    if r < body.radius_m {
-        return Err(Error::BelowSurface {
-            burnout_radius_m: r,
-            surface_radius_m: body.radius_m,
-        });
-    }
-    let elements: Vec<&Target> = problem
-        .targets
-        .iter()
-        .filter(|t| t.quantity.is_orbit_element())
-        .collect();
-    let all_elements = elements.len() == problem.targets.len();
-    let n = problem.targets.len();
-    let states: Vec<BurnoutState> = match (n, problem.flight_path_angle_rad, problem.speed_m_s) {
-        (0, Some(fpa), Some(v)) => vec![forward_state(mu, r, v, fpa)?],
-        (2, None, None) if all_elements => {
-            let conic = conic_from_pair(mu, elements[0], elements[1])?;
-            burnout_for_conic(mu, &conic, r)?
-        }
-        (1, Some(fpa), None) if all_elements => speed_for_target(mu, r, fpa, elements[0])?,
-        (1, None, Some(v)) if all_elements => fpa_for_speed(mu, r, v, elements[0])?,
-        (0, _, _) => {
-            return Err(Error::Usage(
-                "nothing to target: give two target quantities (e.g. --periapsis-alt and --apoapsis-alt), one with --fpa or --speed, or --speed and --fpa for the orbit they reach".into(),
-            ))
-        }
-        (1, None, None) => {
-            return Err(Error::Usage(format!(
-                "{} alone leaves burnout speed and flight-path angle both free: add a second target quantity, or --fpa or --speed",
-                problem.targets[0].flag
-            )))
-        }
-        _ => return crate::numeric::solve_numeric(problem),
-    };
-    Ok(finish(problem, states, closed_form_report(problem, None)))
-}
-
-/// Burnout radius free, two orbit-element targets and one of speed or
-/// flight-path angle: the target conic is known, and the radius follows in
-/// closed form (vis-viva for a speed, the conic's own angle for a
-/// flight-path angle). `Ok(None)` when the problem is not of that kind.
-fn free_radius_closed_form(problem: &Problem) -> Result<Option<Solved>, Error> {
-    let mu = problem.body.mu_m3_s2;
-    let [a, b] = problem.targets.as_slice() else {
-        return Ok(None);
-    };
-    if !(a.quantity.is_orbit_element() && b.quantity.is_orbit_element()) {
-        return Ok(None);
-    }
-    let states = match (problem.speed_m_s, problem.flight_path_angle_rad) {
-        (Some(v), None) => {
-            crate::invert::burnout_for_conic_at_speed(mu, &conic_from_pair(mu, a, b)?, v)?
-        }
-        (None, Some(fpa)) => {
-            crate::invert::burnout_for_conic_at_fpa(mu, &conic_from_pair(mu, a, b)?, fpa)?
-        }
-        _ => return Ok(None),
-    };
-    let surface = problem.body.radius_m;
-    let lowest = states.first().map(|s| s.radius_m);
-    let states: Vec<BurnoutState> = states
-        .into_iter()
-        .filter(|s| s.radius_m >= surface)
-        .collect();
-    if states.is_empty() {
-        return Err(Error::BelowSurface {
-            burnout_radius_m: lowest.unwrap_or(f64::NAN),
-            surface_radius_m: surface,
-        });
-    }
-    Ok(Some(finish(
-        problem,
-        states,
-        closed_form_report(problem, None),
-    )))
 }
 
 /// Achieved minus targeted value of each target at a state, keyed as
@@ -327,7 +215,7 @@ pub(crate) fn target_residuals(
         .collect()
 }
 
-fn closed_form_report(problem: &Problem, first: Option<&BurnoutState>) -> SolverReport {
+pub(crate) fn closed_form_report(problem: &Problem, first: Option<&BurnoutState>) -> SolverReport {
     let residuals = first
         .map(|st| target_residuals(problem.body.mu_m3_s2, &problem.targets, st))
         .unwrap_or_default();
@@ -362,7 +250,7 @@ pub(crate) fn finish(
     let solutions: Vec<Solution> = states
         .into_iter()
         .map(|state| Solution {
-            sensitivity: crate::sensitivity::partials_for_state(body.mu_m3_s2, &state),
+            sensitivity: crate::solve::sensitivity::partials_for_state(body.mu_m3_s2, &state),
             warnings: check_state(body, &state, min_alt),
             site: None,
             residuals: target_residuals(body.mu_m3_s2, &problem.targets, &state),
@@ -391,6 +279,7 @@ pub fn describe_alt(body: &Body, radius_m: f64) -> String {
 #[allow(clippy::float_cmp)] // exact zeros, exact parabolas and mirror images are asserted on purpose
 mod tests {
     use super::*;
+    use crate::solve::solve;
     use approx::assert_relative_eq;
     use TargetQuantity as Q;
 
@@ -403,12 +292,13 @@ mod tests {
             flight_path_angle_rad: None,
             speed_m_s: None,
             min_periapsis_alt_m: None,
+            site: None,
         }
     }
 
     #[test]
     fn apsides_pair_solves_both_branches_with_zero_residuals() {
-        let re = crate::body::EARTH_RADIUS_M;
+        let re = crate::physics::body::EARTH_RADIUS_M;
         let p = earth_problem(
             400e3,
             vec![
@@ -452,7 +342,7 @@ mod tests {
 
     #[test]
     fn suborbital_target_warns_but_solves() {
-        let re = crate::body::EARTH_RADIUS_M;
+        let re = crate::physics::body::EARTH_RADIUS_M;
         let mut p = earth_problem(
             0.0,
             vec![Target::new(Q::ApoapsisRadius, re + 100e3, "--apoapsis-alt")],
@@ -486,6 +376,7 @@ mod tests {
             flight_path_angle_rad: None,
             speed_m_s: None,
             min_periapsis_alt_m: None,
+            site: None,
         };
         let s = solve(&p).unwrap();
         assert_eq!(s.solutions.len(), 1);
@@ -508,6 +399,7 @@ mod tests {
             flight_path_angle_rad: Some(0.0),
             speed_m_s: Some(9_000.0),
             min_periapsis_alt_m: None,
+            site: None,
         };
         let s = solve(&p).unwrap();
         let c = s.solutions[0].state.conic;

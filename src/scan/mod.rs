@@ -20,20 +20,22 @@
 //! summary says the extreme is at the end of the range.
 
 use crate::error::{g, Error, ErrorClass};
-use crate::feasibility::{check_state, Warning};
-use crate::grid::{is_range, out_unit, parse_range, si_unit_text, Grid, MAX_POINTS};
-use crate::inputs::{problem_from_inputs, solve_inputs, Inputs, KEYS, SITE_KEYS, TARGET_KEYS};
-use crate::invert::Branch;
-use crate::lean::LeanSolved;
-use crate::problem::{Problem, Solved};
+use crate::input::problem::{
+    problem_from_inputs, solve_inputs, Inputs, KEYS, SITE_KEYS, TARGET_KEYS,
+};
+use crate::input::range::{is_range, out_unit, parse_range, si_unit_text, Grid, MAX_POINTS};
+use crate::input::units::Kind;
+use crate::physics::state::Branch;
 use crate::report::csv::{sensitivity_columns, site_values, RESULT_COLUMNS, SITE_COLUMNS};
 use crate::report::plot::{PlotData, PlotSeries};
 use crate::report::rows::{
     kept, no_branch_message, push_float, warning_tag, BranchChoice, FloatMemo, Record, SolutionView,
 };
 use crate::report::table::DisplayUnits;
-use crate::sensitivity::{COLS, ROWS};
-use crate::units::Kind;
+use crate::solve::fast_pair::LeanSolved;
+use crate::solve::feasibility::{check_state, Warning};
+use crate::solve::problem::{Problem, Solved};
+use crate::solve::sensitivity::{COLS, ROWS};
 use rayon::prelude::*;
 use std::io::Write;
 
@@ -417,7 +419,7 @@ impl Plan {
                     }
                 }
                 Setter::Fpa => {
-                    if crate::orbit::check_fpa(v).is_err() {
+                    if crate::physics::orbit::check_fpa(v).is_err() {
                         return false;
                     }
                     p.flight_path_angle_rad = Some(v);
@@ -463,9 +465,9 @@ impl Plan {
             if let Some(p) = scratch.as_mut() {
                 if self.apply(p, si) {
                     if let (Some(r), [a, b]) = (p.burnout_radius_m, p.targets.as_slice()) {
-                        let lean = crate::lean::solve_pair(&p.body, a, b, r)?;
+                        let lean = crate::solve::fast_pair::solve_pair(&p.body, a, b, r)?;
                         for i in 0..lean.len {
-                            crate::problem::check_state_finite(
+                            crate::solve::problem::check_state_finite(
                                 p.body.mu_m3_s2,
                                 &lean.states[i],
                                 &lean.sensitivities[i],
@@ -526,7 +528,7 @@ impl Plan {
 }
 
 /// A solved grid point: through [`crate::solve`], or, for a plain pair of
-/// orbit-element targets, through the allocation-free [`crate::lean`]
+/// orbit-element targets, through the allocation-free [`crate::solve::fast_pair`]
 /// (the same numbers, bit for bit; `lean`'s unit test and this module's
 /// shortcut test hold them equal).
 // Boxing the large variant would put a heap allocation back on every point.
@@ -570,8 +572,8 @@ impl Point {
 /// with a launch site, the speed relative to the rotating surface (what the
 /// vehicle must supply from that site: the cost of the orbit from there).
 fn required_speed(
-    state: &crate::invert::BurnoutState,
-    site: Option<&crate::site::SiteState>,
+    state: &crate::physics::state::BurnoutState,
+    site: Option<&crate::physics::site::SiteState>,
 ) -> f64 {
     site.map(|x| x.relative_speed_m_s)
         .unwrap_or(state.speed_m_s)

@@ -23,7 +23,7 @@
 pub mod reader;
 
 use crate::error::{Error, ErrorClass};
-use crate::inputs::{solve_inputs, Inputs};
+use crate::input::problem::{solve_inputs, Inputs};
 use crate::report::csv::{push_cell_bytes, sensitivity_columns, RESULT_COLUMNS, SITE_COLUMNS};
 use crate::report::rows::{kept, no_branch_message, BranchChoice, Record};
 use crate::scan::solve_input_kind;
