@@ -10,7 +10,9 @@
 
 use burnout::batch::{Batch, BatchOptions};
 use burnout::input::problem::{problem_from_inputs, Inputs};
-use burnout::scan::{Plan, ScanFormat, ScanOptions};
+use burnout::report::scan::{ScanFormat, ScanWriter};
+use burnout::report::table::DisplayUnits;
+use burnout::scan::{Plan, ScanOptions};
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
 use std::hint::black_box;
 use std::time::Duration;
@@ -60,9 +62,12 @@ fn scan_million(c: &mut Criterion) {
         ("apoapsis-alt", "35786km"),
     ]))
     .expect("valid scan");
-    let opts = ScanOptions {
+    let opts = ScanOptions::default();
+    let writer = ScanWriter {
         format: ScanFormat::Csv,
-        ..ScanOptions::default()
+        units: DisplayUnits::Si,
+        sensitivities: false,
+        branch: opts.branch,
     };
     let mut out: Vec<u8> = Vec::with_capacity(400 << 20);
     let mut group = c.benchmark_group("scan");
@@ -72,7 +77,7 @@ fn scan_million(c: &mut Criterion) {
     group.bench_function("1,000,000 altitudes, both branches, CSV in memory", |b| {
         b.iter(|| {
             out.clear();
-            plan.run(&opts, &mut out, &mut |_| {})
+            plan.run(&opts, &writer, &mut out, &mut |_| {})
                 .expect("in-memory write");
             black_box(out.len())
         })

@@ -24,6 +24,7 @@
 #![deny(clippy::float_cmp)]
 
 pub mod batch;
+pub mod columns;
 pub mod error;
 pub mod input;
 pub mod physics;

@@ -22,11 +22,13 @@
 
 pub mod reader;
 
+use crate::columns::{given_name, sensitivity_columns, RESULT_COLUMNS, SITE_COLUMNS};
 use crate::error::{Error, ErrorClass};
 use crate::input::problem::{solve_inputs, Inputs};
-use crate::report::csv::{push_cell_bytes, sensitivity_columns, RESULT_COLUMNS, SITE_COLUMNS};
-use crate::report::rows::{kept, no_branch_message, BranchChoice, Record};
+use crate::report::csv::push_cell_bytes;
+use crate::report::rows::Record;
 use crate::scan::solve_input_kind;
+use crate::solve::problem::{kept, no_branch_message, BranchChoice};
 use rayon::prelude::*;
 use reader::{RawRecord, ReadError, RecordReader, MAX_RECORD_BYTES};
 use std::io::{BufRead, Write};
@@ -252,26 +254,13 @@ impl<R: BufRead> Batch<R> {
         self.empty
     }
 
-    /// `given_<name>` for an input column whose name equals a result column
-    /// written beside it; the name as read otherwise.
-    fn given_name(name: &str, sensitivities: bool, site: bool) -> String {
-        let taken = RESULT_COLUMNS.contains(&name)
-            || (site && SITE_COLUMNS.contains(&name))
-            || (sensitivities && sensitivity_columns().iter().any(|c| c == name));
-        if taken {
-            format!("given_{name}")
-        } else {
-            name.to_string()
-        }
-    }
-
     /// The output header: input columns, result columns, partials if asked.
     pub fn output_columns(&self, sensitivities: bool) -> Vec<String> {
         let mut cols: Vec<String> = self
             .layout
             .names
             .iter()
-            .map(|n| Self::given_name(n, sensitivities, self.layout.has_site()))
+            .map(|n| given_name(n, sensitivities, self.layout.has_site()))
             .collect();
         cols.extend(RESULT_COLUMNS.iter().map(|s| s.to_string()));
         if sensitivities {

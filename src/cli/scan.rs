@@ -3,8 +3,9 @@
 use super::output::AtomicFile;
 use super::progress::Progress;
 use super::{Format, ProblemArgs, UnitsArg};
-use burnout::report::rows::BranchChoice;
-use burnout::scan::{Plan, ScanFormat, ScanOptions};
+use burnout::report::scan::{ScanFormat, ScanWriter};
+use burnout::scan::{Plan, ScanOptions};
+use burnout::solve::problem::BranchChoice;
 use burnout::Error;
 use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
@@ -140,22 +141,27 @@ pub fn run(args: Args) -> Result<i32, Error> {
         }
     }
     let opts = ScanOptions {
-        format,
         branch: args.branch.into(),
-        sensitivities: args.sensitivities,
-        units: args.units.into(),
         parallel: true,
-        plot: plot_file.is_some(),
+        samples: plot_file.is_some(),
+    };
+    let writer = ScanWriter {
+        format,
+        units: args.units.into(),
+        sensitivities: args.sensitivities,
+        branch: opts.branch,
     };
     let mut progress = Progress::new(plan.len() as u64, "points");
     let result = match out_file.as_mut() {
         Some(f) => plan.run(
             &opts,
+            &writer,
             BufWriter::with_capacity(1 << 20, f.file()),
             &mut |d| progress.update(d),
         ),
         None => plan.run(
             &opts,
+            &writer,
             BufWriter::with_capacity(1 << 20, std::io::stdout()),
             &mut |d| progress.update(d),
         ),
@@ -176,7 +182,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
     // are committed together: both or neither.
     let mut files: Vec<AtomicFile> = out_file.into_iter().collect();
     if let Some(mut f) = plot_file.take() {
-        if let Some(data) = report.plot.as_ref() {
+        if let Some(data) = writer.plot_data(&plan, &report).as_ref() {
             let given = shown(args.plot.as_deref());
             let mut w = BufWriter::new(f.file());
             burnout::report::plot::write_svg(&mut w, data)
@@ -199,7 +205,11 @@ pub fn run(args: Args) -> Result<i32, Error> {
     }
     let table_on_stdout = format == ScanFormat::Table && out_path.is_none();
     if !table_on_stdout {
-        for (i, line) in plan.summary_lines(&report, opts.units).iter().enumerate() {
+        for (i, line) in writer
+            .summary_lines(&plan, &report, writer.units)
+            .iter()
+            .enumerate()
+        {
             if i == 0 {
                 let secs = progress.elapsed().as_secs_f64();
                 crate::cli::diag::line(&format!("{line} in {secs:.2} s"));

@@ -1,40 +1,9 @@
 //! CSV columns and rows for solved problems (shared by `solve --format csv`,
 //! `scan` and `batch`).
 
+pub use crate::columns::{sensitivity_columns, RESULT_COLUMNS, SITE_COLUMNS};
 use crate::solve::problem::{Solution, Solved};
-use crate::solve::sensitivity::{COLS, ROWS};
 use std::io::Write;
-
-/// Result columns after the input columns, in order.
-pub const RESULT_COLUMNS: [&str; 13] = [
-    "status",
-    "message",
-    "branch",
-    "speed_m_s",
-    "flight_path_angle_deg",
-    "true_anomaly_deg",
-    "periapsis_radius_m",
-    "apoapsis_radius_m",
-    "sma_m",
-    "ecc",
-    "period_s",
-    "c3_m2_s2",
-    "burnout_radius_m",
-];
-
-/// Launch-site columns, added after the result (and sensitivity) columns
-/// when a launch site is among the inputs (angles in deg, speeds in m/s;
-/// latitude geocentric).
-pub const SITE_COLUMNS: [&str; 8] = [
-    "launch_azimuth_deg",
-    "azimuth_deg",
-    "burnout_latitude_deg",
-    "burnout_longitude_deg",
-    "relative_speed_m_s",
-    "relative_flight_path_angle_deg",
-    "relative_azimuth_deg",
-    "inclination_deg",
-];
 
 /// The values of [`SITE_COLUMNS`] for a site state.
 pub fn site_values(site: Option<&crate::physics::site::SiteState>) -> [Option<f64>; 8] {
@@ -51,17 +20,6 @@ pub fn site_values(site: Option<&crate::physics::site::SiteState>) -> [Option<f6
             Some(x.inclination_rad.to_degrees()),
         ],
     }
-}
-
-/// The 15 sensitivity column names `d_<row>_d_<col>`.
-pub fn sensitivity_columns() -> Vec<String> {
-    let mut out = Vec::with_capacity(15);
-    for r in ROWS {
-        for c in COLS {
-            out.push(format!("d_{r}_d_{c}"));
-        }
-    }
-    out
 }
 
 /// Whether a spreadsheet would read a cell starting this way as a formula

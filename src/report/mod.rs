@@ -6,6 +6,7 @@ pub mod csv;
 pub mod json;
 pub mod plot;
 pub mod rows;
+pub mod scan;
 pub mod table;
 
 /// The caution printed with every human-readable result.

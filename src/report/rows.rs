@@ -6,110 +6,8 @@
 //! writer only avoids building a `String` per field, which matters when a
 //! scan writes millions of rows.
 
-use crate::error::Error;
-use crate::physics::state::Branch;
-use crate::physics::state::BurnoutState;
 use crate::solve::feasibility::Warning;
-use crate::solve::problem::{Solution, Solved};
-use crate::solve::sensitivity::Sensitivity;
-
-/// The parts of a solution that a row shows (a [`Solution`], or the
-/// allocation-free answer of [`crate::solve::fast_pair`]).
-#[derive(Debug, Clone, Copy)]
-pub struct SolutionView<'a> {
-    /// The burnout state and its orbit.
-    pub state: &'a BurnoutState,
-    /// Its partials.
-    pub sensitivity: &'a Sensitivity,
-    /// Its warnings.
-    pub warnings: &'a [Warning],
-    /// Its launch-site geometry, if a site was given.
-    pub site: Option<&'a crate::physics::site::SiteState>,
-}
-
-impl<'a> From<&'a Solution> for SolutionView<'a> {
-    fn from(s: &'a Solution) -> Self {
-        SolutionView {
-            state: &s.state,
-            sensitivity: &s.sensitivity,
-            warnings: &s.warnings,
-            site: s.site.as_ref(),
-        }
-    }
-}
-
-/// Which branches a scan or batch row keeps.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
-pub enum BranchChoice {
-    /// Flight-path angle >= 0 only.
-    Ascending,
-    /// Flight-path angle <= 0 only.
-    Descending,
-    /// Every solution.
-    #[default]
-    Both,
-}
-
-impl BranchChoice {
-    /// Reads `ascending`, `descending` or `both` (an empty text is `both`).
-    ///
-    /// # Errors
-    /// [`Error::InvalidValue`] naming `origin` (a flag or column) and the text.
-    pub fn from_name(origin: &str, text: &str) -> Result<BranchChoice, Error> {
-        match text.trim().to_ascii_lowercase().as_str() {
-            "" | "both" => Ok(BranchChoice::Both),
-            "ascending" => Ok(BranchChoice::Ascending),
-            "descending" => Ok(BranchChoice::Descending),
-            _ => Err(Error::InvalidValue {
-                flag: origin.to_string(),
-                text: text.to_string(),
-                kind: "branch",
-                reason: "expected ascending, descending or both".into(),
-            }),
-        }
-    }
-
-    /// Name as written on the command line.
-    pub fn name(self) -> &'static str {
-        match self {
-            BranchChoice::Ascending => "ascending",
-            BranchChoice::Descending => "descending",
-            BranchChoice::Both => "both",
-        }
-    }
-
-    /// Whether a solution on `branch` is kept.
-    pub fn keeps(self, branch: Branch) -> bool {
-        match self {
-            BranchChoice::Both => true,
-            BranchChoice::Ascending => branch == Branch::Ascending,
-            BranchChoice::Descending => branch == Branch::Descending,
-        }
-    }
-}
-
-/// The solutions of `solved` on the kept branches, in solve order.
-pub fn kept(solved: &Solved, choice: BranchChoice) -> impl Iterator<Item = &Solution> {
-    solved
-        .solutions
-        .iter()
-        .filter(move |s| choice.keeps(s.state.branch))
-}
-
-/// Message for a solved problem none of whose solutions (on `found`
-/// branches) is on the kept branch.
-pub fn no_branch_message(found: impl Iterator<Item = Branch>, choice: BranchChoice) -> String {
-    let found: Vec<&str> = found.map(|b| b.name()).collect();
-    format!(
-        "no solution on the {} branch (the solutions found are {})",
-        choice.name(),
-        if found.is_empty() {
-            "none".to_string()
-        } else {
-            found.join(", ")
-        }
-    )
-}
+use crate::solve::problem::{Solution, SolutionView};
 
 /// A short name for a warning, for compact human tables.
 pub fn warning_tag(w: &Warning) -> String {
@@ -247,7 +145,7 @@ impl<'a> Record<'a> {
     }
 
     /// The result fields of one solution: status `ok`, warnings as the
-    /// message, then the numbers of [`super::csv::RESULT_COLUMNS`] and, if
+    /// message, then the numbers of [`crate::columns::RESULT_COLUMNS`] and, if
     /// asked, the 15 partials.
     pub fn solution(&mut self, mu_m3_s2: f64, s: &Solution, sensitivities: bool) -> &mut Self {
         self.solution_memo(mu_m3_s2, s.into(), sensitivities, &mut FloatMemo::new())
@@ -322,7 +220,7 @@ impl<'a> Record<'a> {
     /// The result fields of a row that did not solve: status, message, blanks.
     pub fn failure(&mut self, status: &str, message: &str, sensitivities: bool) -> &mut Self {
         self.text(status).text(&super::csv::safe_message(message));
-        let blanks = super::csv::RESULT_COLUMNS.len() - 2 + if sensitivities { 15 } else { 0 };
+        let blanks = crate::columns::RESULT_COLUMNS.len() - 2 + if sensitivities { 15 } else { 0 };
         self.blanks(blanks)
     }
 
@@ -337,7 +235,9 @@ impl<'a> Record<'a> {
 mod tests {
     use super::*;
     use crate::input::problem::{problem_from_inputs, Inputs};
+    use crate::physics::state::Branch;
     use crate::report::csv::{failure_fields, solution_fields};
+    use crate::solve::problem::{BranchChoice, Solved};
 
     fn solved(pairs: &[(&str, &str)]) -> Solved {
         let inputs: Inputs = pairs

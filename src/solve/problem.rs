@@ -5,6 +5,7 @@
 use crate::error::{g, Error};
 use crate::physics::body::Body;
 use crate::physics::site::SiteInputs;
+use crate::physics::state::Branch;
 use crate::physics::state::BurnoutState;
 use crate::solve::feasibility::{check_state, Warning};
 use crate::solve::sensitivity::Sensitivity;
@@ -273,6 +274,104 @@ pub(crate) fn finish(
 /// Describes a radius as an altitude above `body` for messages.
 pub fn describe_alt(body: &Body, radius_m: f64) -> String {
     format!("{} km altitude", g((radius_m - body.radius_m) / 1e3))
+}
+
+/// The parts of a solution that a row shows (a [`Solution`], or the
+/// allocation-free answer of [`crate::solve::fast_pair`]).
+#[derive(Debug, Clone, Copy)]
+pub struct SolutionView<'a> {
+    /// The burnout state and its orbit.
+    pub state: &'a BurnoutState,
+    /// Its partials.
+    pub sensitivity: &'a Sensitivity,
+    /// Its warnings.
+    pub warnings: &'a [Warning],
+    /// Its launch-site geometry, if a site was given.
+    pub site: Option<&'a crate::physics::site::SiteState>,
+}
+
+impl<'a> From<&'a Solution> for SolutionView<'a> {
+    fn from(s: &'a Solution) -> Self {
+        SolutionView {
+            state: &s.state,
+            sensitivity: &s.sensitivity,
+            warnings: &s.warnings,
+            site: s.site.as_ref(),
+        }
+    }
+}
+
+/// Which branches a scan or batch row keeps.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum BranchChoice {
+    /// Flight-path angle >= 0 only.
+    Ascending,
+    /// Flight-path angle <= 0 only.
+    Descending,
+    /// Every solution.
+    #[default]
+    Both,
+}
+
+impl BranchChoice {
+    /// Reads `ascending`, `descending` or `both` (an empty text is `both`).
+    ///
+    /// # Errors
+    /// [`Error::InvalidValue`] naming `origin` (a flag or column) and the text.
+    pub fn from_name(origin: &str, text: &str) -> Result<BranchChoice, Error> {
+        match text.trim().to_ascii_lowercase().as_str() {
+            "" | "both" => Ok(BranchChoice::Both),
+            "ascending" => Ok(BranchChoice::Ascending),
+            "descending" => Ok(BranchChoice::Descending),
+            _ => Err(Error::InvalidValue {
+                flag: origin.to_string(),
+                text: text.to_string(),
+                kind: "branch",
+                reason: "expected ascending, descending or both".into(),
+            }),
+        }
+    }
+
+    /// Name as written on the command line.
+    pub fn name(self) -> &'static str {
+        match self {
+            BranchChoice::Ascending => "ascending",
+            BranchChoice::Descending => "descending",
+            BranchChoice::Both => "both",
+        }
+    }
+
+    /// Whether a solution on `branch` is kept.
+    pub fn keeps(self, branch: Branch) -> bool {
+        match self {
+            BranchChoice::Both => true,
+            BranchChoice::Ascending => branch == Branch::Ascending,
+            BranchChoice::Descending => branch == Branch::Descending,
+        }
+    }
+}
+
+/// The solutions of `solved` on the kept branches, in solve order.
+pub fn kept(solved: &Solved, choice: BranchChoice) -> impl Iterator<Item = &Solution> {
+    solved
+        .solutions
+        .iter()
+        .filter(move |s| choice.keeps(s.state.branch))
+}
+
+/// Message for a solved problem none of whose solutions (on `found`
+/// branches) is on the kept branch.
+pub fn no_branch_message(found: impl Iterator<Item = Branch>, choice: BranchChoice) -> String {
+    let found: Vec<&str> = found.map(|b| b.name()).collect();
+    format!(
+        "no solution on the {} branch (the solutions found are {})",
+        choice.name(),
+        if found.is_empty() {
+            "none".to_string()
+        } else {
+            found.join(", ")
+        }
+    )
 }
 
 #[cfg(test)]
