@@ -10,6 +10,7 @@
 
 use burnout::batch::{Batch, BatchOptions};
 use burnout::input::problem::{problem_from_inputs, Inputs};
+use burnout::report::batch::BatchCsv;
 use burnout::report::scan::{ScanFormat, ScanWriter};
 use burnout::report::table::DisplayUnits;
 use burnout::scan::{Plan, ScanOptions};
@@ -104,7 +105,12 @@ fn batch_hundred_thousand(c: &mut Criterion) {
             out.clear();
             let batch = Batch::open(input.as_bytes()).expect("header");
             let s = batch
-                .run(&mut out, &BatchOptions::default(), &mut |_, _| {})
+                .run(
+                    &BatchCsv::default(),
+                    &mut out,
+                    &BatchOptions::default(),
+                    &mut |_, _| {},
+                )
                 .expect("in-memory write");
             black_box(s.rows_written)
         })

@@ -3,6 +3,7 @@
 #![no_main]
 use burnout::batch::reader::{RawRecord, RecordReader};
 use burnout::batch::{Batch, BatchError, BatchOptions};
+use burnout::report::batch::BatchCsv;
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {
@@ -27,7 +28,7 @@ fuzz_target!(|data: &[u8]| {
         ..BatchOptions::default()
     };
     let mut out = Vec::new();
-    match batch.run(&mut out, &opts, &mut |_, _| {}) {
+    match batch.run(&BatchCsv::default(), &mut out, &opts, &mut |_, _| {}) {
         Ok(s) => {
             assert!(s.rows_written >= s.rows_read);
             assert!(s.rows_read < records.max(1));

@@ -25,8 +25,6 @@ pub mod reader;
 use crate::columns::{given_name, sensitivity_columns, RESULT_COLUMNS, SITE_COLUMNS};
 use crate::error::{Error, ErrorClass};
 use crate::input::problem::{solve_inputs, Inputs};
-use crate::report::csv::push_cell_bytes;
-use crate::report::rows::Record;
 use crate::scan::solve_input_kind;
 use crate::solve::problem::{kept, no_branch_message, BranchChoice};
 use rayon::prelude::*;
@@ -70,9 +68,6 @@ pub struct BatchOptions {
     pub sensitivities: bool,
     /// Solve each chunk in parallel (output order is the same either way).
     pub parallel: bool,
-    /// Neutralise input cells (and header names) that a spreadsheet would
-    /// read as a formula: see [`crate::report::csv::push_cell_bytes`].
-    pub safe_cells: bool,
 }
 
 impl Default for BatchOptions {
@@ -80,9 +75,44 @@ impl Default for BatchOptions {
         BatchOptions {
             sensitivities: false,
             parallel: true,
-            safe_cells: false,
         }
     }
+}
+
+/// Where a batch's rows go: the engine reads, solves and orders; the sink
+/// turns each row into bytes. Rows of one group of records are formatted on
+/// a worker thread (hence `Sync`) into that group's buffer.
+pub trait BatchSink: Sync {
+    /// The header line: `raw` holds the input column names as read and
+    /// `columns` the output names (input, result, partials, site).
+    fn header(&self, raw: &[Vec<u8>], columns: &[String], buf: &mut Vec<u8>);
+    /// The input part of every output row of one record: its cells as read
+    /// (bytes, invalid UTF-8 kept), padded or cut to `width` columns.
+    fn prefix(
+        &self,
+        cells: &mut dyn Iterator<Item = Option<&[u8]>>,
+        width: usize,
+        buf: &mut Vec<u8>,
+    );
+    /// The rest of a row for one kept solution (`site`: whether the site
+    /// columns are written).
+    fn solution(
+        &self,
+        mu_m3_s2: f64,
+        s: &crate::Solution,
+        sensitivities: bool,
+        site: bool,
+        buf: &mut Vec<u8>,
+    );
+    /// The rest of a row for a record without a kept solution.
+    fn failure(
+        &self,
+        status: &str,
+        message: &str,
+        sensitivities: bool,
+        site: bool,
+        buf: &mut Vec<u8>,
+    );
 }
 
 /// Counts of a finished batch (input rows, by outcome).
@@ -279,28 +309,19 @@ impl<R: BufRead> Batch<R> {
     /// [`BatchError::Read`] if the input cannot be read part-way,
     /// [`BatchError::Write`] if the output cannot be written. Bad rows are
     /// output rows, not errors.
-    pub fn run<W: Write>(
+    pub fn run<S: BatchSink, W: Write>(
         mut self,
+        sink: &S,
         mut out: W,
         opts: &BatchOptions,
         progress: &mut dyn FnMut(u64, u64),
     ) -> Result<BatchSummary, BatchError> {
         let mut head = Vec::new();
-        let width = self.layout.raw_names.len();
-        for (i, c) in self.output_columns(opts.sensitivities).iter().enumerate() {
-            if i > 0 {
-                head.push(b',');
-            }
-            match self.layout.raw_names.get(i) {
-                // An input column named like a result column is written as
-                // given_<name> (the contract's rule); others exactly as read.
-                Some(raw) if i < width && c.as_bytes() == raw.as_slice() => {
-                    push_cell_bytes(&mut head, raw, opts.safe_cells)
-                }
-                _ => push_cell_bytes(&mut head, c.as_bytes(), false),
-            }
-        }
-        head.push(b'\n');
+        sink.header(
+            &self.layout.raw_names,
+            &self.output_columns(opts.sensitivities),
+            &mut head,
+        );
         out.write_all(&head).map_err(BatchError::Write)?;
         let mut total = BatchSummary::default();
         let mut pool: Vec<RawRecord> = Vec::new();
@@ -336,12 +357,12 @@ impl<R: BufRead> Batch<R> {
             let parts: Vec<(Vec<u8>, BatchSummary)> = if opts.parallel && n > TASK {
                 records
                     .par_chunks(TASK)
-                    .map(|group| this.solve_group(group, opts))
+                    .map(|group| this.solve_group(sink, group, opts))
                     .collect()
             } else {
                 records
                     .chunks(TASK)
-                    .map(|group| this.solve_group(group, opts))
+                    .map(|group| this.solve_group(sink, group, opts))
                     .collect()
             };
             for (bytes, counts) in parts {
@@ -372,12 +393,17 @@ impl Layout {
         self.site
     }
 
-    fn solve_group(&self, group: &[RawRecord], opts: &BatchOptions) -> (Vec<u8>, BatchSummary) {
+    fn solve_group<S: BatchSink>(
+        &self,
+        sink: &S,
+        group: &[RawRecord],
+        opts: &BatchOptions,
+    ) -> (Vec<u8>, BatchSummary) {
         let mut buf = Vec::with_capacity(group.len() * 256);
         let mut counts = BatchSummary::default();
         for r in group {
             counts.rows_read += 1;
-            let (class, rows) = self.solve_row(r, opts, &mut buf);
+            let (class, rows) = self.solve_row(sink, r, opts, &mut buf);
             counts.rows_written += rows;
             match class {
                 None => counts.solved += 1,
@@ -390,8 +416,9 @@ impl Layout {
 
     /// Writes the output rows of one record; returns `None` when it solved,
     /// else the class of its failure, and the number of rows written.
-    fn solve_row(
+    fn solve_row<S: BatchSink>(
         &self,
+        sink: &S,
         r: &RawRecord,
         opts: &BatchOptions,
         buf: &mut Vec<u8>,
@@ -400,25 +427,11 @@ impl Layout {
         // The input part of every output row: the cells as read (bytes,
         // invalid UTF-8 kept), padded or cut to the header's width.
         let mut prefix = Vec::with_capacity(128);
-        for i in 0..width {
-            if i > 0 {
-                prefix.push(b',');
-            }
-            if let Some(cell) = r.get(i) {
-                push_cell_bytes(&mut prefix, cell, opts.safe_cells);
-            }
-        }
-        if width > 0 {
-            prefix.push(b',');
-        }
+        sink.prefix(&mut (0..width).map(|i| r.get(i)), width, &mut prefix);
+        let site = self.has_site();
         let fail = |buf: &mut Vec<u8>, e: &Error| {
             buf.extend_from_slice(&prefix);
-            let mut rec = Record::new(buf);
-            rec.failure(e.status(), &e.to_string(), opts.sensitivities);
-            if self.has_site() {
-                rec.site(None);
-            }
-            rec.end();
+            sink.failure(e.status(), &e.to_string(), opts.sensitivities, site, buf);
             (Some(e.class()), 1)
         };
         match self.problem_of(r) {
@@ -432,12 +445,7 @@ impl Layout {
                         let mut rows = 0;
                         for s in kept(&solved, branch) {
                             buf.extend_from_slice(&prefix);
-                            let mut rec = Record::new(buf);
-                            rec.solution(mu, s, opts.sensitivities);
-                            if self.has_site() {
-                                rec.site(s.site.as_ref());
-                            }
-                            rec.end();
+                            sink.solution(mu, s, opts.sensitivities, site, buf);
                             rows += 1;
                         }
                         if rows == 0 {
@@ -512,6 +520,7 @@ impl Layout {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::report::batch::BatchCsv;
 
     fn run_text(input: &[u8], parallel: bool) -> (String, BatchSummary, Vec<String>) {
         let batch = Batch::open(input).unwrap();
@@ -521,7 +530,9 @@ mod tests {
             parallel,
             ..BatchOptions::default()
         };
-        let s = batch.run(&mut out, &opts, &mut |_, _| {}).unwrap();
+        let s = batch
+            .run(&BatchCsv::default(), &mut out, &opts, &mut |_, _| {})
+            .unwrap();
         (String::from_utf8(out).unwrap(), s, unknown)
     }
 
@@ -618,7 +629,12 @@ d,12 parsecs,185,35786,\n";
         assert!(batch.is_empty());
         let mut out = Vec::new();
         let s = batch
-            .run(&mut out, &BatchOptions::default(), &mut |_, _| {})
+            .run(
+                &BatchCsv::default(),
+                &mut out,
+                &BatchOptions::default(),
+                &mut |_, _| {},
+            )
             .unwrap();
         assert_eq!(s.rows_read, 0);
         assert!(s.all_solved());

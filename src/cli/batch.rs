@@ -4,6 +4,7 @@ use super::diag;
 use super::output::AtomicFile;
 use super::progress::Progress;
 use burnout::batch::{Batch, BatchError, BatchOptions};
+use burnout::report::batch::BatchCsv;
 use burnout::Error;
 use std::io::{BufReader, BufWriter, Read};
 use std::path::PathBuf;
@@ -89,17 +90,21 @@ pub fn run(args: Args) -> Result<i32, Error> {
     let opts = BatchOptions {
         sensitivities: args.sensitivities,
         parallel: true,
+    };
+    let sink = BatchCsv {
         safe_cells: args.safe_cells,
     };
     let mut progress = Progress::new(size, "bytes");
     let mut report = |_rows: u64, bytes: u64| progress.update(bytes);
     let result = match out_file.as_mut() {
         Some(f) => batch.run(
+            &sink,
             BufWriter::with_capacity(1 << 20, f.file()),
             &opts,
             &mut report,
         ),
         None => batch.run(
+            &sink,
             BufWriter::with_capacity(1 << 20, std::io::stdout()),
             &opts,
             &mut report,

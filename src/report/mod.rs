@@ -1,6 +1,7 @@
 //! Writers for solved problems: human tables, JSON and CSV. Each takes any
 //! `impl std::io::Write`.
 
+pub mod batch;
 pub mod budget;
 pub mod csv;
 pub mod json;
