@@ -1,6 +1,6 @@
 //! `burnout budget`: burnout error budget for a solved targeting problem.
 
-use super::{Format, ProblemArgs};
+use super::{BudgetFlags, Format, ProblemArgs};
 use burnout::input::case::overlay;
 use burnout::input::problem::{budget_from_inputs, solve_inputs, Inputs};
 use burnout::report::budget::{write_json, write_table, BudgetReport};
@@ -12,39 +12,8 @@ use burnout::Error;
 pub struct Args {
     #[command(flatten)]
     problem: ProblemArgs,
-    /// 1-sigma burnout speed error (bare: km/s).
-    #[arg(long, allow_hyphen_values = true)]
-    speed_sigma: Option<String>,
-    /// 1-sigma flight-path angle error (bare: deg).
-    #[arg(long, allow_hyphen_values = true)]
-    fpa_sigma: Option<String>,
-    /// 1-sigma burnout altitude error (bare: km).
-    #[arg(long, allow_hyphen_values = true)]
-    alt_sigma: Option<String>,
-    /// Correlation of speed and flight-path angle errors, -1..1.
-    #[arg(long, allow_hyphen_values = true)]
-    speed_fpa_corr: Option<String>,
-    /// Correlation of speed and altitude errors, -1..1.
-    #[arg(long, allow_hyphen_values = true)]
-    speed_alt_corr: Option<String>,
-    /// Correlation of flight-path angle and altitude errors, -1..1.
-    #[arg(long, allow_hyphen_values = true)]
-    fpa_alt_corr: Option<String>,
-    /// Allowed periapsis error, +/- (bare: km).
-    #[arg(long, allow_hyphen_values = true)]
-    periapsis_tol: Option<String>,
-    /// Allowed apoapsis error, +/- (bare: km).
-    #[arg(long, allow_hyphen_values = true)]
-    apoapsis_tol: Option<String>,
-    /// Allowed semi-major axis error, +/- (bare: km).
-    #[arg(long, allow_hyphen_values = true)]
-    sma_tol: Option<String>,
-    /// Allowed eccentricity error, +/-.
-    #[arg(long, allow_hyphen_values = true)]
-    ecc_tol: Option<String>,
-    /// Allowed period error, +/- (bare: s).
-    #[arg(long, allow_hyphen_values = true)]
-    period_tol: Option<String>,
+    #[command(flatten)]
+    budget: BudgetFlags,
     /// Which solution(s) to analyse.
     #[arg(long, value_enum, default_value_t = BranchArg::Both)]
     branch: BranchArg,
@@ -66,24 +35,7 @@ pub enum BranchArg {
 
 /// Runs the budget; returns the exit code.
 pub fn run(args: Args) -> Result<i32, Error> {
-    let mut flags: Inputs = Inputs::new();
-    for (k, v) in [
-        ("speed-sigma", &args.speed_sigma),
-        ("fpa-sigma", &args.fpa_sigma),
-        ("alt-sigma", &args.alt_sigma),
-        ("speed-fpa-corr", &args.speed_fpa_corr),
-        ("speed-alt-corr", &args.speed_alt_corr),
-        ("fpa-alt-corr", &args.fpa_alt_corr),
-        ("periapsis-tol", &args.periapsis_tol),
-        ("apoapsis-tol", &args.apoapsis_tol),
-        ("sma-tol", &args.sma_tol),
-        ("ecc-tol", &args.ecc_tol),
-        ("period-tol", &args.period_tol),
-    ] {
-        if let Some(v) = v {
-            flags.insert(k.to_string(), v.clone());
-        }
-    }
+    let flags: Inputs = args.budget.flags.clone();
     super::reject_empty(&flags)?;
     let inputs = overlay(args.problem.inputs()?, &flags);
     let (errors, tolerances) = budget_from_inputs(&inputs)?;

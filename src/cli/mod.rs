@@ -9,6 +9,7 @@ pub mod scan;
 pub mod solve;
 
 use burnout::input::case::{overlay, parse_case};
+use burnout::input::keys::{Key, Role, KEYS};
 use burnout::input::problem::Inputs;
 use burnout::Error;
 use clap::{Args, Parser, Subcommand, ValueEnum};
@@ -67,128 +68,118 @@ impl From<UnitsArg> for burnout::report::table::DisplayUnits {
     }
 }
 
-/// The inputs of a targeting problem, shared by `solve` and `scan`.
-/// Values are text: units are parsed by the library so errors name the flag.
-#[derive(Args, Debug, Default, Clone)]
+/// The inputs of a targeting problem, shared by `solve`, `scan` and
+/// `budget`: `--case FILE` and one flag per solve key of
+/// [`burnout::input::keys::KEYS`] (values are text: units are parsed by the
+/// library so errors name the flag).
+#[derive(Debug, Default, Clone)]
 pub struct ProblemArgs {
     /// Read a case file (TOML); flags given beside it override its values.
-    #[arg(long, value_name = "FILE")]
     pub case: Option<String>,
-    /// Central body: earth, moon, mars, venus, mercury, jupiter, sun [default: earth].
-    #[arg(long, allow_hyphen_values = true)]
-    pub body: Option<String>,
-    /// Custom body's gravitational parameter (bare: km3/s2); needs --radius.
-    #[arg(long, allow_hyphen_values = true)]
-    pub mu: Option<String>,
-    /// Custom body's surface radius (bare: km); goes with --mu.
-    #[arg(long, allow_hyphen_values = true)]
-    pub radius: Option<String>,
-    /// Burnout altitude above the body's equatorial radius (bare: km).
-    #[arg(long, allow_hyphen_values = true)]
-    pub burnout_alt: Option<String>,
-    /// Burnout radius from the body's centre (bare: km).
-    #[arg(long, allow_hyphen_values = true)]
-    pub burnout_radius: Option<String>,
-    /// Target periapsis altitude (bare: km).
-    #[arg(long, allow_hyphen_values = true)]
-    pub periapsis_alt: Option<String>,
-    /// Target periapsis radius (bare: km).
-    #[arg(long, allow_hyphen_values = true)]
-    pub periapsis_radius: Option<String>,
-    /// Target apoapsis altitude (bare: km).
-    #[arg(long, allow_hyphen_values = true)]
-    pub apoapsis_alt: Option<String>,
-    /// Target apoapsis radius (bare: km).
-    #[arg(long, allow_hyphen_values = true)]
-    pub apoapsis_radius: Option<String>,
-    /// Target semi-major axis (bare: km; negative for a hyperbola).
-    #[arg(long, allow_hyphen_values = true)]
-    pub sma: Option<String>,
-    /// Target eccentricity.
-    #[arg(long, allow_hyphen_values = true)]
-    pub ecc: Option<String>,
-    /// Target period (bare: s; s, min, h, d).
-    #[arg(long, allow_hyphen_values = true)]
-    pub period: Option<String>,
-    /// Target C3 = v_inf^2 (bare: km2/s2; negative for a closed orbit).
-    #[arg(long, allow_hyphen_values = true)]
-    pub c3: Option<String>,
-    /// Target semi-latus rectum (bare: km).
-    #[arg(long, allow_hyphen_values = true)]
-    pub semi_latus_rectum: Option<String>,
-    /// Target time of flight from burnout to apoapsis (bare: s).
-    #[arg(long, allow_hyphen_values = true)]
-    pub time_to_apoapsis: Option<String>,
-    /// Target time of flight from burnout to periapsis (bare: s).
-    #[arg(long, allow_hyphen_values = true)]
-    pub time_to_periapsis: Option<String>,
-    /// Target angle travelled from burnout to apoapsis (bare: deg).
-    #[arg(long, allow_hyphen_values = true)]
-    pub angle_to_apoapsis: Option<String>,
-    /// Burnout flight-path angle above the local horizontal (bare: deg).
-    #[arg(long, allow_hyphen_values = true)]
-    pub fpa: Option<String>,
-    /// Burnout zenith angle from the local vertical (bare: deg); fpa = 90 deg - zenith.
-    #[arg(long, allow_hyphen_values = true)]
-    pub zenith: Option<String>,
-    /// Burnout speed, inertial (bare: km/s).
-    #[arg(long, allow_hyphen_values = true)]
-    pub speed: Option<String>,
-    /// Launch-site geodetic latitude (bare: deg).
-    #[arg(long, allow_hyphen_values = true)]
-    pub latitude: Option<String>,
-    /// Launch-site longitude, east positive (bare: deg).
-    #[arg(long, allow_hyphen_values = true)]
-    pub longitude: Option<String>,
-    /// Launch azimuth at the site, from north through east, as flown over the rotating surface (bare: deg).
-    #[arg(long, allow_hyphen_values = true)]
-    pub azimuth: Option<String>,
-    /// Great-circle arc from the site to the burnout subpoint: an angle (bare: deg) or a surface length (km, nmi, ...).
-    #[arg(long, allow_hyphen_values = true)]
-    pub downrange: Option<String>,
-    /// Target inclination (bare: deg); needs a site.
-    #[arg(long, allow_hyphen_values = true)]
-    pub inclination: Option<String>,
-    /// Lowest periapsis altitude considered safe (bare: km) [default: earth 150 km, common practice].
-    #[arg(long, allow_hyphen_values = true)]
-    pub min_periapsis_alt: Option<String>,
+    flags: Inputs,
+}
+
+/// The error-budget flags of `burnout budget`, from the same table.
+#[derive(Debug, Default, Clone)]
+pub struct BudgetFlags {
+    /// The budget flags given, as named inputs.
+    pub flags: Inputs,
+}
+
+fn is_solve_key(k: &Key) -> bool {
+    k.role != Role::Budget
+}
+
+fn is_budget_key(k: &Key) -> bool {
+    k.role == Role::Budget
+}
+
+/// Adds one text-valued flag per key of the table that `pick` selects.
+fn add_key_args(mut cmd: clap::Command, pick: fn(&Key) -> bool) -> clap::Command {
+    for k in KEYS.iter().filter(|k| pick(k)) {
+        // The value's placeholder, as clap's derive would name the field
+        // (`--burnout-alt <BURNOUT_ALT>`); built once per run.
+        let value_name: &'static str =
+            Box::leak(k.key.replace('-', "_").to_uppercase().into_boxed_str());
+        cmd = cmd.arg(
+            clap::Arg::new(k.key)
+                .long(k.key)
+                .value_name(value_name)
+                .allow_hyphen_values(true)
+                .help(k.help.strip_suffix(".").unwrap_or(k.help)),
+        );
+    }
+    cmd
+}
+
+/// The values of the flags `pick` selects, as named inputs.
+fn read_key_args(m: &clap::ArgMatches, pick: fn(&Key) -> bool, into: &mut Inputs) {
+    for k in KEYS.iter().filter(|k| pick(k)) {
+        if let Ok(Some(v)) = m.try_get_one::<String>(k.key) {
+            into.insert(k.key.to_string(), v.clone());
+        }
+    }
+}
+
+impl clap::FromArgMatches for ProblemArgs {
+    fn from_arg_matches(m: &clap::ArgMatches) -> Result<Self, clap::Error> {
+        let mut args = ProblemArgs::default();
+        args.update_from_arg_matches(m)?;
+        Ok(args)
+    }
+
+    fn update_from_arg_matches(&mut self, m: &clap::ArgMatches) -> Result<(), clap::Error> {
+        if let Ok(Some(c)) = m.try_get_one::<String>("case") {
+            self.case = Some(c.clone());
+        }
+        read_key_args(m, is_solve_key, &mut self.flags);
+        Ok(())
+    }
+}
+
+impl Args for ProblemArgs {
+    fn augment_args(cmd: clap::Command) -> clap::Command {
+        let cmd = cmd.arg(
+            clap::Arg::new("case")
+                .long("case")
+                .value_name("FILE")
+                .help("Read a case file (TOML); flags given beside it override its values"),
+        );
+        add_key_args(cmd, is_solve_key)
+    }
+
+    fn augment_args_for_update(cmd: clap::Command) -> clap::Command {
+        Self::augment_args(cmd)
+    }
+}
+
+impl clap::FromArgMatches for BudgetFlags {
+    fn from_arg_matches(m: &clap::ArgMatches) -> Result<Self, clap::Error> {
+        let mut args = BudgetFlags::default();
+        args.update_from_arg_matches(m)?;
+        Ok(args)
+    }
+
+    fn update_from_arg_matches(&mut self, m: &clap::ArgMatches) -> Result<(), clap::Error> {
+        read_key_args(m, is_budget_key, &mut self.flags);
+        Ok(())
+    }
+}
+
+impl Args for BudgetFlags {
+    fn augment_args(cmd: clap::Command) -> clap::Command {
+        add_key_args(cmd, is_budget_key)
+    }
+
+    fn augment_args_for_update(cmd: clap::Command) -> clap::Command {
+        Self::augment_args(cmd)
+    }
 }
 
 impl ProblemArgs {
     /// The flags given, as named inputs (keys without dashes).
     pub fn flag_inputs(&self) -> Inputs {
-        let pairs: [(&str, &Option<String>); 26] = [
-            ("body", &self.body),
-            ("mu", &self.mu),
-            ("radius", &self.radius),
-            ("burnout-alt", &self.burnout_alt),
-            ("burnout-radius", &self.burnout_radius),
-            ("periapsis-alt", &self.periapsis_alt),
-            ("periapsis-radius", &self.periapsis_radius),
-            ("apoapsis-alt", &self.apoapsis_alt),
-            ("apoapsis-radius", &self.apoapsis_radius),
-            ("sma", &self.sma),
-            ("ecc", &self.ecc),
-            ("period", &self.period),
-            ("c3", &self.c3),
-            ("semi-latus-rectum", &self.semi_latus_rectum),
-            ("time-to-apoapsis", &self.time_to_apoapsis),
-            ("time-to-periapsis", &self.time_to_periapsis),
-            ("angle-to-apoapsis", &self.angle_to_apoapsis),
-            ("fpa", &self.fpa),
-            ("zenith", &self.zenith),
-            ("speed", &self.speed),
-            ("min-periapsis-alt", &self.min_periapsis_alt),
-            ("latitude", &self.latitude),
-            ("longitude", &self.longitude),
-            ("azimuth", &self.azimuth),
-            ("downrange", &self.downrange),
-            ("inclination", &self.inclination),
-        ];
-        pairs
-            .iter()
-            .filter_map(|(k, v)| v.as_ref().map(|v| (k.to_string(), v.clone())))
-            .collect()
+        self.flags.clone()
     }
 
     /// The case file's inputs (if any) with the flags laid over them.

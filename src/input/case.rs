@@ -15,79 +15,19 @@
 //! Values are strings with units or bare numbers (default units).
 
 use crate::error::Error;
+use crate::input::keys;
 use crate::input::problem::Inputs;
 
-/// Keys allowed in each section, and the input key each maps to.
-const SECTIONS: &[(&str, &[(&str, &str)])] = &[
-    (
-        "body",
-        &[("name", "body"), ("mu", "mu"), ("radius", "radius")],
-    ),
-    (
-        "burnout",
-        &[
-            ("alt", "burnout-alt"),
-            ("radius", "burnout-radius"),
-            ("fpa", "fpa"),
-            ("zenith", "zenith"),
-            ("speed", "speed"),
-        ],
-    ),
-    (
-        "target",
-        &[
-            ("periapsis-alt", "periapsis-alt"),
-            ("periapsis-radius", "periapsis-radius"),
-            ("apoapsis-alt", "apoapsis-alt"),
-            ("apoapsis-radius", "apoapsis-radius"),
-            ("sma", "sma"),
-            ("ecc", "ecc"),
-            ("period", "period"),
-            ("c3", "c3"),
-            ("semi-latus-rectum", "semi-latus-rectum"),
-            ("time-to-apoapsis", "time-to-apoapsis"),
-            ("time-to-periapsis", "time-to-periapsis"),
-            ("angle-to-apoapsis", "angle-to-apoapsis"),
-            ("inclination", "inclination"),
-        ],
-    ),
-    (
-        "site",
-        &[
-            ("latitude", "latitude"),
-            ("longitude", "longitude"),
-            ("azimuth", "azimuth"),
-            ("downrange", "downrange"),
-        ],
-    ),
-    ("options", &[("min-periapsis-alt", "min-periapsis-alt")]),
-    (
-        "budget",
-        &[
-            ("speed-sigma", "speed-sigma"),
-            ("fpa-sigma", "fpa-sigma"),
-            ("alt-sigma", "alt-sigma"),
-            ("speed-fpa-corr", "speed-fpa-corr"),
-            ("speed-alt-corr", "speed-alt-corr"),
-            ("fpa-alt-corr", "fpa-alt-corr"),
-            ("periapsis-tol", "periapsis-tol"),
-            ("apoapsis-tol", "apoapsis-tol"),
-            ("sma-tol", "sma-tol"),
-            ("ecc-tol", "ecc-tol"),
-            ("period-tol", "period-tol"),
-        ],
-    ),
-];
-
-/// Groups of input keys that give the same quantity: a flag given beside a
-/// case replaces the case's value of every key in its group.
-pub const OVERRIDE_GROUPS: &[&[&str]] = &[
-    &["body", "mu", "radius"],
-    &["burnout-alt", "burnout-radius"],
-    &["periapsis-alt", "periapsis-radius"],
-    &["apoapsis-alt", "apoapsis-radius"],
-    &["fpa", "zenith"],
-];
+/// The case-file sections, in the table's order.
+fn case_sections() -> Vec<&'static str> {
+    let mut out: Vec<&str> = Vec::new();
+    for k in keys::KEYS {
+        if !out.contains(&k.case.0) {
+            out.push(k.case.0);
+        }
+    }
+    out
+}
 
 /// A parsed case file.
 #[derive(Debug, Clone, PartialEq, Default)]
@@ -118,19 +58,24 @@ pub fn parse_case(text: &str, origin: &str) -> Result<Case, Error> {
             }
             continue;
         }
-        let Some((_, allowed)) = SECTIONS.iter().find(|(s, _)| s == key) else {
+        if !keys::is_case_section(key) {
             return Err(Error::Usage(format!(
-                "case file {origin}: unknown section [{key}] (expected body, burnout, target, site, options, budget)"
+                "case file {origin}: unknown section [{key}] (expected {})",
+                case_sections().join(", ")
             )));
-        };
+        }
         let Some(section) = value.as_table() else {
             return Err(Error::Usage(format!(
                 "case file {origin}: '{key}' must be a section [{key}]"
             )));
         };
         for (k, v) in section {
-            let Some((_, input)) = allowed.iter().find(|(a, _)| a == k) else {
-                let names: Vec<&str> = allowed.iter().map(|(a, _)| *a).collect();
+            let Some(input) = keys::from_case(key, k).map(|x| x.key) else {
+                let names: Vec<&str> = keys::KEYS
+                    .iter()
+                    .filter(|x| x.case.0 == key)
+                    .map(|x| x.case.1)
+                    .collect();
                 return Err(Error::Usage(format!(
                     "case file {origin}: unknown key '{k}' in [{key}] (expected {})",
                     names.join(", ")
@@ -156,10 +101,8 @@ pub fn parse_case(text: &str, origin: &str) -> Result<Case, Error> {
 /// of its whole override group.
 pub fn overlay(mut base: Inputs, flags: &Inputs) -> Inputs {
     for key in flags.keys() {
-        if let Some(group) = OVERRIDE_GROUPS.iter().find(|g| g.contains(&key.as_str())) {
-            for k in *group {
-                base.remove(*k);
-            }
+        for k in keys::override_group(key) {
+            base.remove(k);
         }
     }
     for (k, v) in flags {

@@ -6,6 +6,7 @@
 //! problem, and [`case`] reads TOML case files into the same named inputs.
 
 pub mod case;
+pub mod keys;
 pub mod problem;
 pub mod range;
 pub mod units;

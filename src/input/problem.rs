@@ -9,102 +9,11 @@ use crate::error::Error;
 use crate::input::units::{parse_si, Kind};
 use crate::physics::body::Body;
 use crate::solve::problem::Problem;
-use crate::solve::target::{Target, TargetQuantity};
+use crate::solve::target::Target;
 use std::collections::BTreeMap;
 
 /// Named text inputs, keyed by flag name without dashes.
 pub type Inputs = BTreeMap<String, String>;
-
-/// Every target key: (key, flag, quantity, kind, measured as altitude).
-pub const TARGET_KEYS: &[(&str, &str, TargetQuantity, Kind, bool)] = &[
-    (
-        "periapsis-alt",
-        "--periapsis-alt",
-        TargetQuantity::PeriapsisRadius,
-        Kind::Length,
-        true,
-    ),
-    (
-        "periapsis-radius",
-        "--periapsis-radius",
-        TargetQuantity::PeriapsisRadius,
-        Kind::Length,
-        false,
-    ),
-    (
-        "apoapsis-alt",
-        "--apoapsis-alt",
-        TargetQuantity::ApoapsisRadius,
-        Kind::Length,
-        true,
-    ),
-    (
-        "apoapsis-radius",
-        "--apoapsis-radius",
-        TargetQuantity::ApoapsisRadius,
-        Kind::Length,
-        false,
-    ),
-    ("sma", "--sma", TargetQuantity::Sma, Kind::Length, false),
-    ("ecc", "--ecc", TargetQuantity::Ecc, Kind::Ratio, false),
-    (
-        "period",
-        "--period",
-        TargetQuantity::Period,
-        Kind::Time,
-        false,
-    ),
-    ("c3", "--c3", TargetQuantity::C3, Kind::C3, false),
-    (
-        "semi-latus-rectum",
-        "--semi-latus-rectum",
-        TargetQuantity::SemiLatusRectum,
-        Kind::Length,
-        false,
-    ),
-    (
-        "time-to-apoapsis",
-        "--time-to-apoapsis",
-        TargetQuantity::TimeToApoapsis,
-        Kind::Time,
-        false,
-    ),
-    (
-        "time-to-periapsis",
-        "--time-to-periapsis",
-        TargetQuantity::TimeToPeriapsis,
-        Kind::Time,
-        false,
-    ),
-    (
-        "angle-to-apoapsis",
-        "--angle-to-apoapsis",
-        TargetQuantity::AngleToApoapsis,
-        Kind::Angle,
-        false,
-    ),
-];
-
-/// Every key this module reads, with the kind of its value.
-pub const KEYS: &[(&str, Kind)] = &[
-    ("mu", Kind::Mu),
-    ("radius", Kind::Length),
-    ("burnout-alt", Kind::Length),
-    ("burnout-radius", Kind::Length),
-    ("fpa", Kind::Angle),
-    ("zenith", Kind::Angle),
-    ("speed", Kind::Speed),
-    ("min-periapsis-alt", Kind::Length),
-];
-
-/// Launch-site keys.
-pub const SITE_KEYS: &[(&str, Kind)] = &[
-    ("latitude", Kind::Angle),
-    ("longitude", Kind::Angle),
-    ("azimuth", Kind::Angle),
-    ("downrange", Kind::AngleOrLength),
-    ("inclination", Kind::Angle),
-];
 
 /// The launch site given in the inputs, if any (`latitude` present).
 ///
@@ -175,21 +84,6 @@ pub fn solve_inputs(inputs: &Inputs) -> Result<crate::solve::problem::Solved, Er
     Ok(solved)
 }
 
-/// Error-budget keys (case-file `[budget]` section and `burnout budget` flags).
-pub const BUDGET_KEYS: &[(&str, Kind)] = &[
-    ("speed-sigma", Kind::Speed),
-    ("fpa-sigma", Kind::Angle),
-    ("alt-sigma", Kind::Length),
-    ("speed-fpa-corr", Kind::Ratio),
-    ("speed-alt-corr", Kind::Ratio),
-    ("fpa-alt-corr", Kind::Ratio),
-    ("periapsis-tol", Kind::Length),
-    ("apoapsis-tol", Kind::Length),
-    ("sma-tol", Kind::Length),
-    ("ecc-tol", Kind::Ratio),
-    ("period-tol", Kind::Time),
-];
-
 /// Burnout errors and orbit tolerances given in the inputs, if any.
 ///
 /// # Errors
@@ -205,8 +99,9 @@ pub fn budget_from_inputs(
     Error,
 > {
     let mut v = std::collections::HashMap::new();
-    for (key, kind) in BUDGET_KEYS {
-        if let Some(x) = num(inputs, key, *kind)? {
+    for k in crate::input::keys::budget_keys() {
+        let (key, kind) = (&k.key, k.kind.unwrap_or(Kind::Ratio));
+        if let Some(x) = num(inputs, key, kind)? {
             let bad = match *key {
                 k if k.ends_with("-corr") => !(-1.0..=1.0).contains(&x),
                 k if k.ends_with("-tol") => x <= 0.0,
@@ -277,19 +172,7 @@ pub fn budget_from_inputs(
     Ok((errors, tolerances))
 }
 
-/// Kind of the value of `key`, if it is a numeric input key.
-pub fn kind_of(key: &str) -> Option<Kind> {
-    KEYS.iter()
-        .find(|(k, _)| *k == key)
-        .map(|(_, kind)| *kind)
-        .or_else(|| TARGET_KEYS.iter().find(|t| t.0 == key).map(|t| t.3))
-        .or_else(|| {
-            BUDGET_KEYS
-                .iter()
-                .find(|(k, _)| *k == key)
-                .map(|(_, kind)| *kind)
-        })
-}
+pub use crate::input::keys::kind_of;
 
 fn get<'a>(inputs: &'a Inputs, key: &str) -> Option<&'a str> {
     inputs
@@ -368,13 +251,14 @@ pub fn problem_from_inputs(inputs: &Inputs) -> Result<Problem, Error> {
         (None, None) => None,
     };
     let mut targets = Vec::new();
-    for (key, flag, quantity, kind, is_alt) in TARGET_KEYS {
-        if let Some(v) = num(inputs, key, *kind)? {
-            let value = if *is_alt { body.radius_m + v } else { v };
-            let target = Target::new(*quantity, value, flag);
+    for (k, quantity, is_alt) in crate::input::keys::target_keys() {
+        let kind = k.kind.unwrap_or(Kind::Ratio);
+        if let Some(v) = num(inputs, k.key, kind)? {
+            let value = if is_alt { body.radius_m + v } else { v };
+            let target = Target::new(quantity, value, k.flag);
             target
                 .validate()
-                .map_err(|e| about_flag(inputs, key, *kind, e))?;
+                .map_err(|e| about_flag(inputs, k.key, kind, e))?;
             targets.push(target);
         }
     }

@@ -71,25 +71,7 @@ impl ScanSink for ScanWriter {
     }
 }
 
-/// Human name of an input, for summaries and plot labels.
-pub fn human_name(key: &str) -> String {
-    match key {
-        "burnout-alt" => "burnout altitude".into(),
-        "burnout-radius" => "burnout radius".into(),
-        "fpa" => "flight-path angle".into(),
-        "zenith" => "zenith angle".into(),
-        "speed" => "burnout speed".into(),
-        "periapsis-alt" => "periapsis altitude".into(),
-        "apoapsis-alt" => "apoapsis altitude".into(),
-        "sma" => "semi-major axis".into(),
-        "ecc" => "eccentricity".into(),
-        "c3" => "C3".into(),
-        "mu" => "gravitational parameter".into(),
-        "radius" => "body radius".into(),
-        "min-periapsis-alt" => "minimum periapsis altitude".into(),
-        other => other.replace('-', " "),
-    }
-}
+pub use crate::input::keys::human_name;
 
 /// A value in the units people read: (value, unit, decimals for tables).
 pub fn display(kind: Kind, si: f64, units: DisplayUnits) -> (f64, &'static str, usize) {

@@ -23,8 +23,9 @@ mod extreme;
 mod plan;
 mod point;
 
+pub use crate::input::keys::solve_input_kind;
 pub use extreme::{Extreme, ExtremeKind, Refinement};
-pub use plan::{column_name, solve_input_kind, Axis, Plan};
+pub use plan::{column_name, Axis, Plan};
 
 use crate::error::ErrorClass;
 use crate::solve::problem::{no_branch_message, BranchChoice, SolutionView};

@@ -6,9 +6,8 @@ use super::point::Point;
 use crate::columns::given_name;
 use crate::error::Error;
 use crate::error::ErrorClass;
-use crate::input::problem::{
-    problem_from_inputs, solve_inputs, Inputs, KEYS, SITE_KEYS, TARGET_KEYS,
-};
+use crate::input::keys::solve_input_kind;
+use crate::input::problem::{problem_from_inputs, solve_inputs, Inputs};
 use crate::input::range::{is_range, out_unit, parse_range, si_unit_text, Grid, MAX_POINTS};
 use crate::input::units::Kind;
 use crate::solve::feasibility::check_state;
@@ -17,28 +16,9 @@ use crate::solve::problem::{Problem, Solved};
 /// Order in which swept inputs become axes: the first is the x-axis of the
 /// plot and the direction along which extremes are refined.
 fn axis_rank(key: &str) -> usize {
-    const FIRST: [&str; 5] = ["burnout-alt", "burnout-radius", "fpa", "zenith", "speed"];
-    const LAST: [&str; 3] = ["min-periapsis-alt", "mu", "radius"];
-    if let Some(i) = FIRST.iter().position(|k| *k == key) {
-        return i;
-    }
-    if let Some(i) = TARGET_KEYS.iter().position(|t| t.0 == key) {
-        return FIRST.len() + i;
-    }
-    if let Some(i) = LAST.iter().position(|k| *k == key) {
-        return FIRST.len() + TARGET_KEYS.len() + i;
-    }
-    usize::MAX
-}
-
-/// Kind of a solve input's value (the numeric keys of `solve`; not the
-/// error-budget keys, which `solve` does not read).
-pub fn solve_input_kind(key: &str) -> Option<Kind> {
-    KEYS.iter()
-        .chain(SITE_KEYS)
-        .find(|(k, _)| *k == key)
-        .map(|(_, kind)| *kind)
-        .or_else(|| TARGET_KEYS.iter().find(|t| t.0 == key).map(|t| t.3))
+    crate::input::keys::find(key)
+        .and_then(|k| k.axis_rank)
+        .map_or(usize::MAX, usize::from)
 }
 
 /// How a swept value is put into a [`Problem`] without re-reading text.
@@ -190,7 +170,7 @@ impl Plan {
         let problem_only = |k: &String| {
             LEAN_KEYS.contains(&k.as_str())
                 || ["fpa", "zenith", "speed"].contains(&k.as_str())
-                || TARGET_KEYS.iter().any(|t| t.0 == k)
+                || crate::input::keys::target_keys().any(|(t, _, _)| t.key == k)
         };
         if !self
             .base
@@ -446,11 +426,12 @@ fn setter_for(key: &str, p: &Problem) -> Setter {
         "speed" => Setter::Speed,
         "min-periapsis-alt" => Setter::MinPeriapsisAlt,
         _ => {
-            let Some(t) = TARGET_KEYS.iter().find(|t| t.0 == key) else {
+            let Some((k, _, is_alt)) = crate::input::keys::target_keys().find(|t| t.0.key == key)
+            else {
                 return Setter::Text;
             };
-            match p.targets.iter().position(|x| x.flag == t.1) {
-                Some(index) => Setter::Target { index, is_alt: t.4 },
+            match p.targets.iter().position(|x| x.flag == k.flag) {
+                Some(index) => Setter::Target { index, is_alt },
                 None => Setter::Text,
             }
         }
