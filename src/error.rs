@@ -10,6 +10,10 @@ pub enum ErrorClass {
     Usage,
     /// The input was understood but no trajectory satisfies it. Exit code 3.
     Infeasible,
+    /// A file or stream could not be read or written (not the input's
+    /// fault). Exit code 2, the contract's one code for a run that could not
+    /// be carried out (3 stays "no trajectory").
+    Io,
 }
 
 /// Everything that can go wrong in `burnout`.
@@ -83,6 +87,9 @@ pub enum Error {
     },
     /// The target quantities contradict each other or the burnout state.
     Infeasible(String),
+    /// A file or stream could not be read or written; the message names it
+    /// and the system's reason.
+    Io(String),
     /// A computed result is not finite (the inputs' magnitudes are beyond
     /// what double precision carries, e.g. a gravitational parameter of
     /// 1e-300).
@@ -120,13 +127,14 @@ impl Error {
             | Error::AboveApoapsis { .. }
             | Error::Infeasible(_)
             | Error::NoConvergence { .. } => ErrorClass::Infeasible,
+            Error::Io(_) => ErrorClass::Io,
         }
     }
 
     /// Short machine tag for the error's class, as used in batch `status`.
     pub fn status(&self) -> &'static str {
         match self.class() {
-            ErrorClass::Usage => "invalid",
+            ErrorClass::Usage | ErrorClass::Io => "invalid",
             ErrorClass::Infeasible => "infeasible",
         }
     }
@@ -220,7 +228,7 @@ impl fmt::Display for Error {
                     "burnout radius {a} m is above apoapsis radius {b} m: the target orbit never goes that high"
                 )
             }
-            Error::Infeasible(msg) => f.write_str(msg),
+            Error::Infeasible(msg) | Error::Io(msg) => f.write_str(msg),
             Error::NonFiniteResult { quantity, value } => write!(
                 f,
                 "{quantity} comes out as {value}, not a finite number: the inputs' magnitudes (gravitational parameter, radii, speeds) are beyond what double precision carries for this answer"
@@ -271,6 +279,17 @@ pub(crate) fn positive(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn io_failures_are_their_own_class_not_a_usage_error() {
+        let e = Error::Io("cannot write --out 'x.csv': permission denied".into());
+        assert_eq!(e.class(), ErrorClass::Io);
+        assert_ne!(e.class(), ErrorClass::Usage);
+        assert_eq!(
+            e.to_string(),
+            "cannot write --out 'x.csv': permission denied"
+        );
+    }
 
     #[test]
     fn messages_are_one_line_and_name_values() {

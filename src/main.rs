@@ -81,7 +81,7 @@ fn main() -> ExitCode {
         Err(e) => {
             cli::diag::line(&format!("error: {}", e.to_string().replace('\n', " ")));
             match e.class() {
-                ErrorClass::Usage => ExitCode::from(2),
+                ErrorClass::Usage | ErrorClass::Io => ExitCode::from(2),
                 ErrorClass::Infeasible => ExitCode::from(3),
             }
         }

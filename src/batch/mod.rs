@@ -24,8 +24,8 @@ pub mod reader;
 
 use crate::columns::{given_name, sensitivity_columns, RESULT_COLUMNS, SITE_COLUMNS};
 use crate::error::{Error, ErrorClass};
+use crate::input::keys::solve_input_kind;
 use crate::input::problem::{solve_inputs, Inputs};
-use crate::scan::solve_input_kind;
 use crate::solve::problem::{kept, no_branch_message, BranchChoice};
 use rayon::prelude::*;
 use reader::{RawRecord, ReadError, RecordReader, MAX_RECORD_BYTES};
@@ -99,7 +99,7 @@ pub trait BatchSink: Sync {
     fn solution(
         &self,
         mu_m3_s2: f64,
-        s: &crate::Solution,
+        s: &crate::solve::problem::Solution,
         sensitivities: bool,
         site: bool,
         buf: &mut Vec<u8>,
@@ -408,7 +408,7 @@ impl Layout {
             match class {
                 None => counts.solved += 1,
                 Some(ErrorClass::Infeasible) => counts.infeasible += 1,
-                Some(ErrorClass::Usage) => counts.invalid += 1,
+                Some(ErrorClass::Usage | ErrorClass::Io) => counts.invalid += 1,
             }
         }
         (buf, counts)

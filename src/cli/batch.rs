@@ -43,7 +43,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
         (Box::new(std::io::stdin().lock()), 0)
     } else {
         let file = std::fs::File::open(&args.input)
-            .map_err(|e| Error::Usage(format!("cannot read batch input '{shown}': {e}")))?;
+            .map_err(|e| Error::Io(format!("cannot read batch input '{shown}': {e}")))?;
         if file.metadata().map(|m| m.is_dir()).unwrap_or(false) {
             return Err(Error::Usage(format!(
                 "batch input '{shown}' is a directory: expected a CSV file"
@@ -129,7 +129,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
             return Ok(0)
         }
         Err(BatchError::Write(e)) => {
-            return Err(Error::Usage(format!("cannot write {dest}: {e}")));
+            return Err(Error::Io(format!("cannot write {dest}: {e}")));
         }
         Err(BatchError::Read { error, done }) => {
             // The stop must show: with --out nothing is left (the temporary

@@ -80,7 +80,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
         )));
     }
     let mut buf = Vec::new();
-    let io = |e: std::io::Error| Error::Usage(format!("cannot write output: {e}"));
+    let io = |e: std::io::Error| Error::Io(format!("cannot write output: {e}"));
     match args.format {
         Format::Json => write_json(&mut buf, &reports).map_err(io)?,
         Format::Table => write_table(&mut buf, &reports).map_err(io)?,

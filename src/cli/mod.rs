@@ -204,8 +204,7 @@ pub const MAX_CASE_BYTES: u64 = 1 << 20;
 /// Reads a case file: a regular file of at most [`MAX_CASE_BYTES`], UTF-8.
 fn read_case_file(path: &str) -> Result<String, Error> {
     use std::io::Read;
-    let fail =
-        |why: String| Error::Usage(format!("cannot read case file '{path}' for --case: {why}"));
+    let fail = |why: String| Error::Io(format!("cannot read case file '{path}' for --case: {why}"));
     let file = std::fs::File::open(path).map_err(|e| fail(e.to_string()))?;
     let meta = file.metadata().map_err(|e| fail(e.to_string()))?;
     if !meta.is_file() {
@@ -285,8 +284,6 @@ pub fn emit(bytes: &[u8]) -> Result<(), Error> {
     match out.write_all(bytes).and_then(|_| out.flush()) {
         Ok(()) => Ok(()),
         Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
-        Err(e) => Err(Error::Usage(format!(
-            "cannot write to standard output: {e}"
-        ))),
+        Err(e) => Err(Error::Io(format!("cannot write to standard output: {e}"))),
     }
 }

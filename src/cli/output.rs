@@ -115,7 +115,7 @@ fn resolve(path: &Path, flag: &str) -> Result<PathBuf, Error> {
                 break;
             }
             Err(e) => {
-                return Err(Error::Usage(format!("cannot write {flag} '{shown}': {e}")));
+                return Err(Error::Io(format!("cannot write {flag} '{shown}': {e}")));
             }
         };
         if !meta.file_type().is_symlink() {
@@ -141,7 +141,7 @@ fn resolve(path: &Path, flag: &str) -> Result<PathBuf, Error> {
             }
         }
         let target = std::fs::read_link(&p)
-            .map_err(|e| Error::Usage(format!("cannot write {flag} '{shown}': {e}")))?;
+            .map_err(|e| Error::Io(format!("cannot write {flag} '{shown}': {e}")))?;
         p = if target.is_absolute() {
             target
         } else {
@@ -162,7 +162,7 @@ fn resolve(path: &Path, flag: &str) -> Result<PathBuf, Error> {
         _ => PathBuf::from("."),
     };
     let dir = std::fs::canonicalize(&dir).map_err(|e| {
-        Error::Usage(format!(
+        Error::Io(format!(
             "cannot write {flag} '{shown}': directory '{}': {e}",
             dir.display()
         ))
@@ -211,7 +211,7 @@ impl AtomicFile {
                 let file = std::fs::OpenOptions::new()
                     .write(true)
                     .open(&target)
-                    .map_err(|e| Error::Usage(format!("cannot write {flag} '{shown}': {e}")))?;
+                    .map_err(|e| Error::Io(format!("cannot write {flag} '{shown}': {e}")))?;
                 return Ok(AtomicFile {
                     sink: Sink::Direct(file),
                     path: target,
@@ -244,7 +244,7 @@ impl AtomicFile {
         }
         let mut list = pending();
         let temp = builder.tempfile_in(&dir).map_err(|e| {
-            Error::Usage(format!(
+            Error::Io(format!(
                 "cannot write {flag} '{shown}': cannot create a file in '{}': {e}",
                 dir.display()
             ))
@@ -287,7 +287,7 @@ impl AtomicFile {
     }
 
     fn write_error(&self, e: impl std::fmt::Display) -> Error {
-        Error::Usage(format!("cannot write {} '{}': {e}", self.flag, self.shown))
+        Error::Io(format!("cannot write {} '{}': {e}", self.flag, self.shown))
     }
 
     fn flush(&mut self) -> Result<(), Error> {

@@ -175,7 +175,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
                 Some(_) => format!("--out '{}'", shown(args.out.as_deref())),
                 None => "standard output".into(),
             };
-            return Err(Error::Usage(format!("cannot write {dest}: {e}")));
+            return Err(Error::Io(format!("cannot write {dest}: {e}")));
         }
     };
     // The figure is written before either file is committed, and the two
@@ -187,7 +187,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
             let mut w = BufWriter::new(f.file());
             burnout::report::plot::write_svg(&mut w, data)
                 .and_then(|_| w.flush())
-                .map_err(|e| Error::Usage(format!("cannot write --plot '{given}': {e}")))?;
+                .map_err(|e| Error::Io(format!("cannot write --plot '{given}': {e}")))?;
             drop(w);
             files.push(f);
         }

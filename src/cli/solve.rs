@@ -30,12 +30,12 @@ pub fn run(args: Args) -> Result<i32, Error> {
         Format::Table => report::table::write(&mut buf, &solved, args.units.into()).map_err(io)?,
         Format::Json => report::json::write(&mut buf, &solved).map_err(io)?,
         Format::Csv => report::csv::write(&mut buf, &solved, args.sensitivities)
-            .map_err(|e| Error::Usage(format!("cannot write csv: {e}")))?,
+            .map_err(|e| Error::Io(format!("cannot write csv: {e}")))?,
     }
     super::emit(&buf)?;
     Ok(0)
 }
 
 fn io(e: std::io::Error) -> Error {
-    Error::Usage(format!("cannot write output: {e}"))
+    Error::Io(format!("cannot write output: {e}"))
 }

@@ -4,7 +4,7 @@
 use crate::batch::BatchSink;
 use crate::report::csv::push_cell_bytes;
 use crate::report::rows::Record;
-use crate::Solution;
+use crate::solve::problem::Solution;
 
 /// Writes a batch as CSV.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]

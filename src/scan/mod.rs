@@ -313,7 +313,7 @@ impl Plan {
                 Err(e) => {
                     stats.rows += 1;
                     match e.class() {
-                        ErrorClass::Usage => stats.invalid += 1,
+                        ErrorClass::Usage | ErrorClass::Io => stats.invalid += 1,
                         ErrorClass::Infeasible => stats.infeasible += 1,
                     }
                     bytes.extend_from_slice(&prefix);
