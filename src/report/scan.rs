@@ -1,5 +1,8 @@
 //! The scan's bytes: CSV, JSON and the human table written through the
 //! engine's [`ScanSink`], the summary of the extremes, and the figure's data.
+//!
+//! (Why this file is long: three formats share one row walk, and the
+//! figure's data is built from the same axes and extremes.)
 
 use crate::error::g;
 use crate::input::range::Grid;
@@ -594,7 +597,7 @@ impl ScanWriter {
         })
     }
 
-    /// The figure of a scan run with [`ScanOptions::samples`]: one line per
+    /// The figure of a scan run with [`crate::scan::ScanOptions::samples`]: one line per
     /// (second-axis value, branch, solution), the unsolved stretches and the
     /// refined minimum.
     pub fn plot_data(&self, plan: &Plan, report: &ScanReport) -> Option<PlotData> {

@@ -1,13 +1,14 @@
 //! Scans: one targeting problem solved over the Cartesian product of ranges
-//! of its inputs, written as a table, CSV or JSON, with the minimum and
-//! maximum required speed refined between grid points.
+//! of its inputs, every row handed to a [`ScanSink`] (the report layer's
+//! writers format CSV, JSON or a table), with the minimum and maximum
+//! required speed refined between grid points.
 //!
-//! Every point goes through [`crate::solve`], so a scan answers whatever
-//! `solve` answers. The speed comes from building each point's [`Problem`]
+//! Every point goes through [`crate::solve()`], so a scan answers whatever
+//! `solve` answers. The speed comes from building each point's [`crate::Problem`]
 //! once (not from text): the non-swept inputs are parsed once into a
 //! template, and each point only overwrites the swept fields. Inputs without
 //! such a shortcut (the body, a launch site, or keys added later) go through
-//! [`solve_inputs`] per point, as `solve` does; unit tests hold the paths equal.
+//! [`crate::input::problem::solve_inputs`] per point, as `solve` does; unit tests hold the paths equal.
 //!
 //! Rows are produced in chunks, in parallel with rayon when the scan is
 //! large, and written in grid order by one writer, so the output is
@@ -18,6 +19,9 @@
 //! `BrentOpt`) between the grid neighbours of the best point. At an end of
 //! the range the end point is kept when nothing inside beats it, and the
 //! summary says the extreme is at the end of the range.
+//!
+//! (Why this file is long: about 500 of its lines are tests of the engine
+//! and its shortcuts, which run whole scans through the writers.)
 
 mod extreme;
 mod plan;

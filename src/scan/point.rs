@@ -5,7 +5,7 @@ use crate::solve::fast_pair::LeanSolved;
 use crate::solve::feasibility::Warning;
 use crate::solve::problem::{SolutionView, Solved};
 
-/// A solved grid point: through [`crate::solve`], or, for a plain pair of
+/// A solved grid point: through [`crate::solve()`], or, for a plain pair of
 /// orbit-element targets, through the allocation-free [`crate::solve::fast_pair`]
 /// (the same numbers, bit for bit; `lean`'s unit test and this module's
 /// shortcut test hold them equal).

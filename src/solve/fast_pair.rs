@@ -2,12 +2,12 @@
 //! targets (e.g. periapsis and apoapsis) and a burnout radius, answered with
 //! both branches and their sensitivities, all on the stack.
 //!
-//! [`crate::solve`] is the general entry point (any target set, warnings,
+//! [`crate::solve()`] is the general entry point (any target set, warnings,
 //! residuals, the solver report) and costs a few heap allocations per call;
 //! this function gives the same states and partials, bit for bit (a unit
 //! test holds them together), for callers that solve millions of pairs.
 //! The inversion itself is [`pair_states`], the allocation-free form of
-//! [`burnout_for_conic`]; the formulas and their references are documented
+//! [`crate::solve::invert::burnout_for_conic`]; the formulas and their references are documented
 //! in [`crate::solve::invert`].
 //! Feasibility warnings are not built; [`LeanSolved::suborbital`] says
 //! whether the periapsis is under the surface.
@@ -43,7 +43,7 @@ impl LeanSolved {
 /// two orbit-element targets and a burnout radius (m), without allocating.
 ///
 /// # Errors
-/// As [`crate::solve`] for this case: [`Error::BelowSurface`], the target
+/// As [`crate::solve()`] for this case: [`Error::BelowSurface`], the target
 /// checks, the pair errors of [`conic_from_pair`], and those of
 /// [`pair_states`]. (Error values carry text, so the error path allocates.)
 pub fn solve_pair(
