@@ -4,6 +4,7 @@
 pub mod batch;
 pub mod budget;
 pub mod csv;
+pub mod float;
 pub mod json;
 pub mod plot;
 pub mod rows;

@@ -22,11 +22,7 @@ pub fn warning_tag(w: &Warning) -> String {
 /// Appends the shortest text that reads back as `x` (as
 /// [`super::csv::fmt_opt`]: no trailing `.0`); nothing for a non-finite value.
 pub fn push_float(buf: &mut Vec<u8>, x: f64) {
-    if x.is_finite() {
-        let mut b = ryu::Buffer::new();
-        let s = b.format_finite(x);
-        buf.extend_from_slice(s.strip_suffix(".0").unwrap_or(s).as_bytes());
-    }
+    super::float::push_f64(buf, x);
 }
 
 /// Appends one CSV field, quoted when it holds a comma, quote or line break.
@@ -81,12 +77,8 @@ impl FloatMemo {
         let entry = &mut self.slots[slot];
         let bits = x.to_bits();
         if entry.1 == 0 || entry.0 != bits {
-            let mut b = ryu::Buffer::new();
-            let s = b.format_finite(x);
-            let s = s.strip_suffix(".0").unwrap_or(s).as_bytes();
-            // ryu never writes more than 24 bytes for an f64.
-            let n = s.len().min(24);
-            entry.2[..n].copy_from_slice(&s[..n]);
+            // At most MAX_LEN (24) bytes: the slot holds any f64's text.
+            let n = super::float::format_into(&mut entry.2, x);
             entry.1 = n as u8;
             entry.0 = bits;
         }

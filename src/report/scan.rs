@@ -299,7 +299,7 @@ impl ScanWriter {
                 json_str(buf, &msg.join("; "));
                 buf.extend_from_slice(b",\"branch\":");
                 json_str(buf, st.branch.name());
-                let nums: [(&str, Option<f64>); 9] = [
+                let nums: [(&str, Option<f64>); 10] = [
                     ("speed_m_s", Some(st.speed_m_s)),
                     (
                         "flight_path_angle_deg",
@@ -312,6 +312,7 @@ impl ScanWriter {
                     ("ecc", Some(c.ecc())),
                     ("period_s", c.period_s(mu)),
                     ("c3_m2_s2", Some(c.c3_m2_s2(mu))),
+                    ("burnout_radius_m", Some(st.radius_m)),
                 ];
                 for (k, v) in nums {
                     buf.push(b',');

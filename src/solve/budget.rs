@@ -9,7 +9,7 @@
 use crate::error::{g, Error};
 use crate::physics::state::{forward_state, BurnoutState};
 use crate::solve::sensitivity::{partials_per_rad_for_state, ROWS};
-use argmin::core::{CostFunction, Executor, State};
+use argmin::core::{CostFunction, Executor, State, TerminationReason, TerminationStatus};
 use argmin::solver::brent::BrentRoot;
 use nalgebra::{Matrix3, SymmetricEigen, Vector3};
 
@@ -297,7 +297,15 @@ fn exact_edge(edge: &Edge, linear: f64, limit: f64) -> f64 {
         .configure(|s| s.param(0.5 * (lo + hi)).max_iters(200))
         .run()
     {
-        Ok(res) => res.state().get_best_param().copied().unwrap_or(f64::NAN),
+        // An answer counts only when Brent's method says it converged: a
+        // run stopped at the iteration limit is not an edge (NaN, reported
+        // as not found, like a failed run).
+        Ok(res) => match res.state().get_termination_status() {
+            TerminationStatus::Terminated(TerminationReason::SolverConverged) => {
+                res.state().get_best_param().copied().unwrap_or(f64::NAN)
+            }
+            _ => f64::NAN,
+        },
         Err(_) => f64::NAN,
     }
 }

@@ -622,3 +622,44 @@ fn figure_file_is_not_clobbered_either() {
         "old"
     );
 }
+
+#[test]
+fn every_json_row_has_exactly_the_declared_columns() {
+    // Regression: solved rows lacked `burnout_radius_m` while failed rows
+    // and the `columns` list had it.
+    let doc = scan_json(&[
+        "--burnout-alt",
+        "150km..600km:150km",
+        "--periapsis-alt",
+        "300",
+        "--apoapsis-alt",
+        "800",
+    ]);
+    let columns: Vec<&str> = doc["columns"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c.as_str().unwrap())
+        .collect();
+    let rows = doc["rows"].as_array().unwrap();
+    assert!(rows.iter().any(|r| r["status"] == "ok"));
+    assert!(rows.iter().any(|r| r["status"] != "ok"));
+    for row in rows {
+        let mut keys: Vec<&str> = row
+            .as_object()
+            .unwrap()
+            .keys()
+            .map(|k| k.as_str())
+            .collect();
+        let mut want = columns.clone();
+        keys.sort_unstable();
+        want.sort_unstable();
+        assert_eq!(keys, want, "{row}");
+        if row["status"] == "ok" {
+            let r = row["burnout_radius_m"].as_f64().unwrap();
+            let alt = row["burnout_alt_m"].as_f64().unwrap();
+            // WGS 84 equatorial radius, the catalog's Earth radius.
+            assert!((r - (6_378_137.0 + alt)).abs() <= 1e-6 * r, "{row}");
+        }
+    }
+}
