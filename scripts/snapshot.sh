@@ -65,4 +65,21 @@ run bad-pair solve --burnout-alt 200 --period 90min --sma 7000km
 run bad-range scan --burnout-alt 200..100:10 --periapsis-alt 185 --apoapsis-alt 400
 run fwd solve --burnout-alt 250 --speed 11.5 --fpa 60 --format json
 run hyp solve --burnout-alt 250 --sma=-20000 --ecc 1.3
+# Messages that name inputs (the core mentions quantities; the input layer
+# names the flags the user typed).
+run msg-alone solve --burnout-alt 200 --ecc 0.1
+run msg-nothing solve --burnout-alt 200
+run msg-energy solve --burnout-alt 200 --speed 8 --sma 7000
+run msg-no-point solve --periapsis-alt 200 --apoapsis-alt 400
+run msg-free solve --periapsis-radius 7000km --time-to-apoapsis 20min
+run msg-body solve --body pluto --burnout-alt 200 --periapsis-alt 200 --apoapsis-alt 400
+run msg-mu solve --mu 0 --radius 1000 --burnout-alt 200 --periapsis-alt 200 --apoapsis-alt 400
+run msg-site solve --burnout-alt 200 --periapsis-alt 200 --apoapsis-alt 400 --latitude 28.5
+run msg-conflict solve --burnout-alt 200 --periapsis-alt 200 --apoapsis-alt 2000 --sma 12000
+run msg-speed-apo solve --burnout-alt 200 --speed 12 --apoapsis-alt 2000
+run msg-speed-reach solve --burnout-alt 200 --speed 7 --periapsis-radius 9000km
+run msg-family solve --burnout-alt 200 --sma 9000 --period 140min --c3=-40
+run msg-budget budget --burnout-alt 200 --periapsis-alt 200 --apoapsis-alt 400 --speed-sigma 2m/s --ecc-tol 0
+run msg-pair solve --burnout-alt 200 --periapsis-alt 500 --apoapsis-alt 400
+run msg-scan-rows scan --burnout-alt 200 --ecc 0.1..0.3:0.1 --format csv
 echo "$n runs written to $DIR"

@@ -197,7 +197,7 @@ impl fmt::Display for Error {
                 let shown = if unit.is_empty() { v } else { format!("{v} {unit}") };
                 write!(f, "{quantity} {shown} is out of range: expected {expected}")
             }
-            Error::Usage(msg) => f.write_str(msg),
+            Error::Usage(msg) => f.write_str(&render(msg, &|_| None)),
             Error::BelowSurface {
                 burnout_radius_m,
                 surface_radius_m,
@@ -228,7 +228,7 @@ impl fmt::Display for Error {
                     "burnout radius {a} m is above apoapsis radius {b} m: the target orbit never goes that high"
                 )
             }
-            Error::Infeasible(msg) | Error::Io(msg) => f.write_str(msg),
+            Error::Infeasible(msg) | Error::Io(msg) => f.write_str(&render(msg, &|_| None)),
             Error::NonFiniteResult { quantity, value } => write!(
                 f,
                 "{quantity} comes out as {value}, not a finite number: the inputs' magnitudes (gravitational parameter, radii, speeds) are beyond what double precision carries for this answer"
@@ -243,6 +243,103 @@ impl fmt::Display for Error {
                 "no convergence: {method} stopped after {iterations} iterations ({termination}) with largest relative residual {}",
                 g(*residual)
             ),
+        }
+    }
+}
+
+/// Marks of a mention inside a message: start, separator, end.
+const MENTION_START: char = '\u{1}';
+const MENTION_SEP: char = '\u{1f}';
+const MENTION_END: char = '\u{2}';
+
+/// A mention of an input inside a message. The core names inputs by what
+/// they are, never by a flag: `id` identifies the input (a target
+/// quantity's key such as `periapsis_radius_m`, or an input key such as
+/// `speed`) and `plain` is the words [`Error`]'s `Display` shows. The input
+/// layer, which knows what the user typed, shows the flag instead
+/// ([`Error::with_names`]).
+pub fn mention(id: &str, plain: &str) -> String {
+    format!("{MENTION_START}{id}{MENTION_SEP}{plain}{MENTION_END}")
+}
+
+/// `text` with every mention replaced by `name(id)`, or by its plain words
+/// where `name` gives none.
+pub fn render<'a>(
+    text: &'a str,
+    name: &dyn Fn(&str) -> Option<String>,
+) -> std::borrow::Cow<'a, str> {
+    if !text.contains(MENTION_START) {
+        return std::borrow::Cow::Borrowed(text);
+    }
+    let mut out = String::with_capacity(text.len());
+    let mut rest = text;
+    while let Some(i) = rest.find(MENTION_START) {
+        out.push_str(&rest[..i]);
+        let after = &rest[i + 1..];
+        let Some(end) = after.find(MENTION_END) else {
+            out.push_str(after);
+            return std::borrow::Cow::Owned(out);
+        };
+        let inner = &after[..end];
+        let (id, plain) = inner.split_once(MENTION_SEP).unwrap_or((inner, inner));
+        match name(id) {
+            Some(n) => out.push_str(&n),
+            None => out.push_str(plain),
+        }
+        rest = &after[end + 1..];
+    }
+    out.push_str(rest);
+    std::borrow::Cow::Owned(out)
+}
+
+impl Error {
+    /// The inputs the message mentions, by id (see [`mention`]), in order.
+    pub fn mentions(&self) -> Vec<String> {
+        let text = match self {
+            Error::Usage(m) | Error::Infeasible(m) | Error::Io(m) => m.as_str(),
+            Error::OutOfRange { expected, .. } => expected.as_str(),
+            _ => "",
+        };
+        let mut out = Vec::new();
+        let mut rest = text;
+        while let Some(i) = rest.find(MENTION_START) {
+            let after = &rest[i + 1..];
+            let Some(end) = after.find(MENTION_END) else {
+                break;
+            };
+            let inner = &after[..end];
+            out.push(
+                inner
+                    .split_once(MENTION_SEP)
+                    .map_or(inner, |p| p.0)
+                    .to_string(),
+            );
+            rest = &after[end + 1..];
+        }
+        out
+    }
+
+    /// The error with every mention named by `name` (the input layer passes
+    /// the flags the user typed); mentions `name` does not know keep their
+    /// plain words. The result mentions nothing.
+    pub fn with_names(self, name: &dyn Fn(&str) -> Option<String>) -> Error {
+        let r = |m: String| render(&m, name).into_owned();
+        match self {
+            Error::Usage(m) => Error::Usage(r(m)),
+            Error::Infeasible(m) => Error::Infeasible(r(m)),
+            Error::Io(m) => Error::Io(r(m)),
+            Error::OutOfRange {
+                quantity,
+                value,
+                unit,
+                expected,
+            } => Error::OutOfRange {
+                quantity,
+                value,
+                unit,
+                expected: r(expected),
+            },
+            other => other,
         }
     }
 }
@@ -279,6 +376,19 @@ pub(crate) fn positive(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn mentions_show_plain_words_unless_named() {
+        let e = Error::Usage(format!(
+            "{} alone leaves it free",
+            mention("ecc", "eccentricity")
+        ));
+        assert_eq!(e.to_string(), "eccentricity alone leaves it free");
+        assert_eq!(e.mentions(), vec!["ecc".to_string()]);
+        let named = e.with_names(&|id| (id == "ecc").then(|| "--ecc".to_string()));
+        assert_eq!(named.to_string(), "--ecc alone leaves it free");
+        assert!(named.mentions().is_empty());
+    }
 
     #[test]
     fn io_failures_are_their_own_class_not_a_usage_error() {

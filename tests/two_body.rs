@@ -266,8 +266,8 @@ fn solver_answer_for_a_coast_time_reaches_apoapsis_at_that_time() {
     let problem = Problem {
         burnout_radius_m: Some(body.radius_m + 220e3),
         targets: vec![
-            Target::new(TargetQuantity::ApoapsisRadius, ra, "--apoapsis-alt"),
-            Target::new(TargetQuantity::TimeToApoapsis, tof, "--time-to-apoapsis"),
+            Target::new(TargetQuantity::ApoapsisRadius, ra),
+            Target::new(TargetQuantity::TimeToApoapsis, tof),
         ],
         flight_path_angle_rad: None,
         speed_m_s: None,
@@ -369,7 +369,6 @@ fn integrated_coast_roots_in_hard_regimes_reach_periapsis_on_time() {
         targets: vec![Target::new(
             TargetQuantity::TimeToPeriapsis,
             4_199.312_606_077_78,
-            "--time-to-periapsis",
         )],
         flight_path_angle_rad: Some((-0.007_680_298_369_656_212f64).to_radians()),
         speed_m_s: Some(6_527.456_784_168_85),

@@ -2,7 +2,7 @@
 
 use super::{BudgetFlags, Format, ProblemArgs};
 use burnout::input::case::overlay;
-use burnout::input::problem::{budget_from_inputs, solve_inputs, Inputs};
+use burnout::input::problem::{budget_from_inputs, name_flags, solve_inputs, Inputs};
 use burnout::report::budget::{write_json, write_table, BudgetReport};
 use burnout::solve::budget::{allowed_errors, map_errors};
 use burnout::Error;
@@ -62,11 +62,13 @@ pub fn run(args: Args) -> Result<i32, Error> {
             mapped: errors
                 .as_ref()
                 .map(|e| map_errors(mu, &s.state, e))
-                .transpose()?,
+                .transpose()
+                .map_err(|e| name_flags(e, &inputs))?,
             allowed: tolerances
                 .as_ref()
                 .map(|t| allowed_errors(mu, &s.state, t))
-                .transpose()?,
+                .transpose()
+                .map_err(|e| name_flags(e, &inputs))?,
         });
     }
     if reports.is_empty() {

@@ -79,9 +79,36 @@ pub fn site_from_inputs(
 /// # Errors
 /// Any input or solve error.
 pub fn solve_inputs(inputs: &Inputs) -> Result<crate::solve::problem::Solved, Error> {
-    let solved = crate::solve::solve(&problem_from_inputs(inputs)?)?;
+    let solved =
+        crate::solve::solve(&problem_from_inputs(inputs)?).map_err(|e| name_flags(e, inputs))?;
     solved.check_finite()?;
     Ok(solved)
+}
+
+/// The error with every input it mentions named by the flag the user
+/// typed (see [`crate::error::mention`]): a target quantity by the flag
+/// given for it, or the first flag for it in the table when none was (a
+/// suggestion); any other input by its flag.
+pub fn name_flags(e: Error, inputs: &Inputs) -> Error {
+    e.with_names(&|id| flag_for(inputs, id))
+}
+
+fn flag_for(inputs: &Inputs, id: &str) -> Option<String> {
+    if id == "c3-of-speed" {
+        return Some("the c3 of --speed".into());
+    }
+    let mut first = None;
+    for (k, q, _) in crate::input::keys::target_keys() {
+        if q.key() == id {
+            if get(inputs, k.key).is_some() {
+                return Some(k.flag.to_string());
+            }
+            first.get_or_insert(k.flag);
+        }
+    }
+    first
+        .or_else(|| crate::input::keys::find(id).map(|k| k.flag))
+        .map(str::to_string)
 }
 
 /// Burnout errors and orbit tolerances given in the inputs, if any.
@@ -211,7 +238,29 @@ pub fn body_from_inputs(inputs: &Inputs) -> Result<Body, Error> {
         (Some(_), Some(_), _) => Err(Error::Usage(
             "--body and --mu both name the central body: give one (--mu goes with --radius)".into(),
         )),
-        (_, Some(mu), Some(radius)) => Body::custom(mu, radius),
+        (_, Some(mu), Some(radius)) => Body::custom(mu, radius).map_err(|e| match e {
+            // The core names the quantity; the message names the flag too.
+            Error::NotPositive {
+                quantity,
+                value,
+                unit,
+            } => Error::NotPositive {
+                quantity: match quantity {
+                    "gravitational parameter" => "gravitational parameter --mu",
+                    _ => "body radius --radius",
+                },
+                value,
+                unit,
+            },
+            Error::NotFinite { quantity, value } => Error::NotFinite {
+                quantity: match quantity {
+                    "gravitational parameter" => "gravitational parameter --mu",
+                    _ => "body radius --radius",
+                },
+                value,
+            },
+            other => other,
+        }),
         (_, Some(_), None) => Err(Error::Usage(
             "--mu needs --radius (the body's surface radius)".into(),
         )),
@@ -221,7 +270,7 @@ pub fn body_from_inputs(inputs: &Inputs) -> Result<Body, Error> {
         (None, None, Some(_)) => Err(Error::Usage(
             "--radius needs --mu (the body's gravitational parameter)".into(),
         )),
-        (Some(name), None, None) => Body::from_name(name),
+        (Some(name), None, None) => Body::from_name(name).map_err(|e| name_flags(e, inputs)),
         (None, None, None) => Body::from_name("earth"),
     }
 }
@@ -255,7 +304,7 @@ pub fn problem_from_inputs(inputs: &Inputs) -> Result<Problem, Error> {
         let kind = k.kind.unwrap_or(Kind::Ratio);
         if let Some(v) = num(inputs, k.key, kind)? {
             let value = if is_alt { body.radius_m + v } else { v };
-            let target = Target::new(quantity, value, k.flag);
+            let target = Target::new(quantity, value);
             target
                 .validate()
                 .map_err(|e| about_flag(inputs, k.key, kind, e))?;

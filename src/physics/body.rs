@@ -1,6 +1,6 @@
 //! Central bodies: gravitational parameter, equatorial radius, rotation.
 
-use crate::error::{positive, Error};
+use crate::error::{mention, positive, Error};
 use std::f64::consts::PI;
 
 /// A central body.
@@ -154,9 +154,12 @@ impl Body {
             "sun" => (SUN_MU_M3_S2, SUN_RADIUS_M, None, deg_per_day(14.1844), None),
             _ => {
                 return Err(Error::Usage(format!(
-                "unknown body '{name}' for --body: expected one of {} (or give --mu and --radius)",
-                CATALOG.join(", ")
-            )))
+                    "unknown body '{name}' for {}: expected one of {} (or give {} and {})",
+                    mention("body", "the body"),
+                    CATALOG.join(", "),
+                    mention("mu", "a gravitational parameter"),
+                    mention("radius", "a radius")
+                )))
             }
         };
         Ok(Body {
@@ -175,8 +178,8 @@ impl Body {
     /// [`Error::NotPositive`] / [`Error::NotFinite`] when `mu_m3_s2` or
     /// `radius_m` is not a finite positive number.
     pub fn custom(mu_m3_s2: f64, radius_m: f64) -> Result<Body, Error> {
-        positive("gravitational parameter --mu", mu_m3_s2, "m3/s2")?;
-        positive("body radius --radius", radius_m, "m")?;
+        positive("gravitational parameter", mu_m3_s2, "m3/s2")?;
+        positive("body radius", radius_m, "m")?;
         Ok(Body {
             name: "custom".into(),
             mu_m3_s2,

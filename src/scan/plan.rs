@@ -318,10 +318,16 @@ impl Plan {
     pub fn solve_si(&self, si: &[f64], scratch: &mut Option<Problem>) -> Result<Solved, Error> {
         if let Some(p) = scratch.as_mut() {
             if self.apply(p, si) {
-                return crate::solve(p);
+                return crate::solve(p).map_err(|e| self.name_flags(e, si));
             }
         }
         solve_inputs(&self.inputs_at(si))
+    }
+
+    /// The error with its mentions named by the flags of this point's
+    /// inputs (as [`crate::input::problem::name_flags`]).
+    fn name_flags(&self, e: Error, si: &[f64]) -> Error {
+        crate::input::problem::name_flags(e, &self.inputs_at(si))
     }
 
     /// Solves a point for its rows: the allocation-free closed form when the
@@ -335,7 +341,8 @@ impl Plan {
             if let Some(p) = scratch.as_mut() {
                 if self.apply(p, si) {
                     if let (Some(r), [a, b]) = (p.burnout_radius_m, p.targets.as_slice()) {
-                        let lean = crate::solve::fast_pair::solve_pair(&p.body, a, b, r)?;
+                        let lean = crate::solve::fast_pair::solve_pair(&p.body, a, b, r)
+                            .map_err(|e| self.name_flags(e, si))?;
                         for i in 0..lean.len {
                             crate::solve::problem::check_state_finite(
                                 p.body.mu_m3_s2,
@@ -426,11 +433,11 @@ fn setter_for(key: &str, p: &Problem) -> Setter {
         "speed" => Setter::Speed,
         "min-periapsis-alt" => Setter::MinPeriapsisAlt,
         _ => {
-            let Some((k, _, is_alt)) = crate::input::keys::target_keys().find(|t| t.0.key == key)
+            let Some((_, q, is_alt)) = crate::input::keys::target_keys().find(|t| t.0.key == key)
             else {
                 return Setter::Text;
             };
-            match p.targets.iter().position(|x| x.flag == k.flag) {
+            match p.targets.iter().position(|x| x.quantity == q) {
                 Some(index) => Setter::Target { index, is_alt },
                 None => Setter::Text,
             }

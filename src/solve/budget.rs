@@ -6,7 +6,7 @@
 //! radius m); orbit rows are (periapsis radius m, apoapsis radius m, sma m,
 //! ecc, period s), as in [`crate::solve::sensitivity`].
 
-use crate::error::{g, Error};
+use crate::error::{g, mention, Error};
 use crate::physics::state::{forward_state, BurnoutState};
 use crate::solve::sensitivity::{partials_per_rad_for_state, ROWS};
 use argmin::core::{CostFunction, Executor, State, TerminationReason, TerminationStatus};
@@ -336,9 +336,10 @@ pub fn allowed_errors(
     tol: &Tolerances,
 ) -> Result<Allowed, Error> {
     if tol.rows.iter().all(Option::is_none) {
-        return Err(Error::Usage(
-            "no orbit tolerance given (e.g. --apoapsis-tol 50km)".into(),
-        ));
+        return Err(Error::Usage(format!(
+            "no orbit tolerance given (e.g. {} 50km)",
+            mention("apoapsis-tol", "an apoapsis tolerance")
+        )));
     }
     for (i, t) in tol.rows.iter().enumerate() {
         if let Some(t) = t {

@@ -97,20 +97,17 @@ mod tests {
         let re = earth.radius_m;
         let pairs = [
             (
-                Target::new(Q::PeriapsisRadius, re + 185e3, "--periapsis-alt"),
-                Target::new(Q::ApoapsisRadius, re + 35_786e3, "--apoapsis-alt"),
+                Target::new(Q::PeriapsisRadius, re + 185e3),
+                Target::new(Q::ApoapsisRadius, re + 35_786e3),
             ),
             (
-                Target::new(Q::PeriapsisRadius, re + 300e3, "--periapsis-alt"),
-                Target::new(Q::C3, 12e6, "--c3"),
+                Target::new(Q::PeriapsisRadius, re + 300e3),
+                Target::new(Q::C3, 12e6),
             ),
+            (Target::new(Q::Sma, re + 500e3), Target::new(Q::Ecc, 0.01)),
             (
-                Target::new(Q::Sma, re + 500e3, "--sma"),
-                Target::new(Q::Ecc, 0.01, "--ecc"),
-            ),
-            (
-                Target::new(Q::PeriapsisRadius, re - 500e3, "--periapsis-radius"),
-                Target::new(Q::ApoapsisRadius, re + 900e3, "--apoapsis-alt"),
+                Target::new(Q::PeriapsisRadius, re - 500e3),
+                Target::new(Q::ApoapsisRadius, re + 900e3),
             ),
         ];
         let mut compared = 0;

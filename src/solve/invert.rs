@@ -12,7 +12,7 @@
 //! - true anomaly atan2(e sin nu, e cos nu) with e sin nu = v_r h / mu and,
 //!   for ellipses, e cos nu = (rp (ra - r) - ra (r - rp)) / (r (rp + ra)).
 
-use crate::error::{g, positive, Error};
+use crate::error::{g, mention, positive, Error};
 use crate::physics::orbit::{check_fpa, Conic};
 use crate::physics::state::{check_speed, forward_state, Branch, BurnoutState, APSIS_TOLERANCE};
 use crate::solve::target::{conic_from_pair, Target, TargetQuantity};
@@ -233,7 +233,7 @@ pub fn speed_for_target(
                 let vc = (mu / r).sqrt();
                 return Err(Error::Usage(format!(
                     "{} {} m equals the burnout radius with a horizontal flight-path angle: every speed {} circular speed {} m/s reaches it; give a second target quantity",
-                    target.flag,
+                    target.mention(),
                     g(x),
                     if is_apo { "up to" } else { "from" },
                     g(vc)
@@ -274,7 +274,7 @@ pub fn speed_for_target(
             if v2 <= 0.0 {
                 return Err(Error::Infeasible(format!(
                     "{} {} {} needs a semi-major axis of {} m, which an orbit through burnout radius {} m cannot have (expected a > r/2 = {} m or a negative, open orbit)",
-                    target.flag,
+                    target.mention(),
                     g(x),
                     target.quantity.unit(),
                     g(1.0 / inv_a),
@@ -334,7 +334,7 @@ pub fn speed_for_target(
         Q::TimeToApoapsis | Q::TimeToPeriapsis | Q::AngleToApoapsis => {
             return Err(Error::Usage(format!(
                 "{} has no closed-form inversion",
-                target.flag
+                target.mention()
             )))
         }
     };
@@ -346,7 +346,7 @@ pub fn speed_for_target(
         if !(v.is_finite() && v > 0.0) {
             return Err(Error::Infeasible(format!(
                 "no positive burnout speed reaches {} {} {} at flight-path angle {} deg from radius {} m",
-                target.flag,
+                target.mention(),
                 g(x),
                 target.quantity.unit(),
                 gdeg,
@@ -398,9 +398,10 @@ pub fn fpa_for_speed(
     let v_esc = (2.0 * mu_m3_s2 / r).sqrt();
     match target.quantity {
         Q::Sma | Q::Period | Q::C3 | Q::SpecificEnergy => {
+            let speed = mention("speed", "the burnout speed");
             return Err(Error::Usage(format!(
-                "--speed and {} both fix the orbit's energy: pair --speed with a periapsis, apoapsis, eccentricity or semi-latus rectum",
-                target.flag
+                "{speed} and {} both fix the orbit's energy: pair {speed} with a periapsis, apoapsis, eccentricity or semi-latus rectum",
+                target.mention()
             )))
         }
         Q::ApoapsisRadius if v >= v_esc => {
@@ -409,7 +410,7 @@ pub fn fpa_for_speed(
                 g(v),
                 g(v_esc),
                 g(r),
-                target.flag
+                target.mention()
             )))
         }
         Q::Ecc if target.value < 1.0 && v >= v_esc => {
@@ -424,13 +425,13 @@ pub fn fpa_for_speed(
         _ => {}
     }
     let c3 = (v - v_esc) * (v + v_esc);
-    let energy = Target::new(Q::C3, c3, "the c3 of --speed");
+    let energy = Target::c3_of_burnout_speed(c3);
     let conic = conic_from_pair(mu_m3_s2, target, &energy).map_err(|e| match e {
         Error::Infeasible(msg) => Error::Infeasible(format!(
             "burnout speed {} m/s at burnout radius {} m cannot reach {} {} {}: {msg}",
             g(v),
             g(r),
-            target.flag,
+            target.mention(),
             g(target.value),
             target.quantity.unit()
         )),
@@ -538,7 +539,7 @@ mod tests {
         let r = RE + 100e3;
         let ra = RE + 400e3;
         for deg in [0.0, 5.0, 45.0, 89.0, -20.0] {
-            let t = Target::new(TargetQuantity::ApoapsisRadius, ra, "--apoapsis-radius");
+            let t = Target::new(TargetQuantity::ApoapsisRadius, ra);
             let s = speed_for_target(MU, r, f64::to_radians(deg), &t).unwrap();
             let (back, _) = forward(MU, r, s[0].speed_m_s, f64::to_radians(deg)).unwrap();
             assert_relative_eq!(back.apoapsis_radius_m().unwrap(), ra, max_relative = 1e-12);
@@ -550,7 +551,7 @@ mod tests {
         // Straight up to height R: v^2 = 2 mu (1/r - 1/R).
         let r = RE;
         let ra = RE + 100e3;
-        let t = Target::new(TargetQuantity::ApoapsisRadius, ra, "--apoapsis-radius");
+        let t = Target::new(TargetQuantity::ApoapsisRadius, ra);
         let s = speed_for_target(MU, r, PI / 2.0, &t).unwrap();
         assert_relative_eq!(
             s[0].speed_m_s,
@@ -562,7 +563,7 @@ mod tests {
     #[test]
     fn ecc_at_angle_gives_two_speeds_for_an_ellipse() {
         let r = RE + 400e3;
-        let t = Target::new(TargetQuantity::Ecc, 0.1, "--ecc");
+        let t = Target::new(TargetQuantity::Ecc, 0.1);
         let s = speed_for_target(MU, r, 2f64.to_radians(), &t).unwrap();
         assert_eq!(s.len(), 2);
         for st in &s {
@@ -574,11 +575,7 @@ mod tests {
     #[test]
     fn periapsis_out_of_reach_at_steep_angle_is_infeasible() {
         let r = RE + 400e3;
-        let t = Target::new(
-            TargetQuantity::PeriapsisRadius,
-            r * 0.999,
-            "--periapsis-radius",
-        );
+        let t = Target::new(TargetQuantity::PeriapsisRadius, r * 0.999);
         assert!(matches!(
             speed_for_target(MU, r, 10f64.to_radians(), &t),
             Err(Error::Infeasible(_))
@@ -589,7 +586,7 @@ mod tests {
     fn speed_with_apoapsis_gives_both_angles() {
         let r = RE + 200e3;
         let ra = RE + 1000e3;
-        let t = Target::new(TargetQuantity::ApoapsisRadius, ra, "--apoapsis-radius");
+        let t = Target::new(TargetQuantity::ApoapsisRadius, ra);
         let v = 7900.0;
         let s = fpa_for_speed(MU, r, v, &t).unwrap();
         assert_eq!(s.len(), 2);
@@ -602,11 +599,7 @@ mod tests {
     #[test]
     fn escape_speed_with_closed_target_is_infeasible() {
         let r = RE + 200e3;
-        let t = Target::new(
-            TargetQuantity::ApoapsisRadius,
-            RE + 1000e3,
-            "--apoapsis-radius",
-        );
+        let t = Target::new(TargetQuantity::ApoapsisRadius, RE + 1000e3);
         let e = fpa_for_speed(MU, r, 11_500.0, &t).unwrap_err().to_string();
         assert!(e.contains("escape speed"), "{e}");
     }
@@ -672,7 +665,7 @@ mod properties {
         #[test]
         fn speed_for_each_apsis_target_reaches_it((body, r, _v, g) in burnout_state(), k in 1.0001f64..30.0) {
             let mu = body.mu_m3_s2;
-            let t = Target::new(TargetQuantity::ApoapsisRadius, r * k, "--apoapsis-radius");
+            let t = Target::new(TargetQuantity::ApoapsisRadius, r * k);
             let s = speed_for_target(mu, r, g, &t).unwrap();
             let (back, _) = forward(mu, r, s[0].speed_m_s, g).unwrap();
             prop_assert!(close(back.apoapsis_radius_m().unwrap(), r * k, 1e-10));

@@ -2,7 +2,7 @@
 //! planar unknowns when the target includes an inclination (geometry in
 //! [`crate::physics::site`]).
 
-use crate::error::{g, Error};
+use crate::error::{g, mention, Error};
 use crate::physics::body::Body;
 use crate::physics::site::{
     azimuths_for_inclination, geocentric_latitude, great_circle, site_state, validate, SiteInputs,
@@ -98,9 +98,11 @@ pub fn solve_with_site(
         return Ok(solved);
     }
     let Some(i_t) = site.inclination_rad else {
-        return Err(Error::Usage(
-            "a launch site needs --azimuth or a target --inclination".into(),
-        ));
+        return Err(Error::Usage(format!(
+            "a launch site needs {} or a target {}",
+            mention("azimuth", "a launch azimuth"),
+            mention("inclination", "inclination")
+        )));
     };
     let lat_site = geocentric_latitude(body, site.latitude_geodetic_rad);
     // Coupled solve for the launch azimuth with the planar unknowns.

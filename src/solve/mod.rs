@@ -16,7 +16,7 @@ pub mod problem;
 pub mod sensitivity;
 pub mod target;
 
-use crate::error::{positive, Error};
+use crate::error::{mention, positive, Error};
 use crate::physics::state::{forward_state, BurnoutState};
 use invert::{burnout_for_conic, fpa_for_speed, speed_for_target};
 use problem::{closed_form_report, finish, Problem, Solved};
@@ -57,14 +57,20 @@ pub(crate) fn solve_planar(problem: &Problem) -> Result<Solved, Error> {
             return Ok(solved);
         }
         if problem.speed_m_s.is_none() && problem.flight_path_angle_rad.is_none() {
-            return Err(Error::Usage(
-                "missing burnout point: give --burnout-alt or --burnout-radius (or --fpa or --speed with target quantities to solve for the burnout altitude)".into(),
-            ));
+            return Err(Error::Usage(format!(
+                "missing burnout point: give {} or {} (or {} or {} with target quantities to solve for the burnout altitude)",
+                mention("burnout-alt", "a burnout altitude"),
+                mention("burnout-radius", "a burnout radius"),
+                mention("fpa", "a flight-path angle"),
+                mention("speed", "a speed")
+            )));
         }
         if problem.targets.is_empty() {
-            return Err(Error::Usage(
-                "--speed and --fpa without a burnout point need a target quantity to solve for the burnout altitude".into(),
-            ));
+            return Err(Error::Usage(format!(
+                "{} and {} without a burnout point need a target quantity to solve for the burnout altitude",
+                mention("speed", "speed"),
+                mention("fpa", "flight-path angle")
+            )));
         }
         return numeric::solve_numeric(problem);
     };
@@ -91,14 +97,22 @@ pub(crate) fn solve_planar(problem: &Problem) -> Result<Solved, Error> {
         (1, Some(fpa), None) if all_elements => speed_for_target(mu, r, fpa, elements[0])?,
         (1, None, Some(v)) if all_elements => fpa_for_speed(mu, r, v, elements[0])?,
         (0, _, _) => {
-            return Err(Error::Usage(
-                "nothing to target: give two target quantities (e.g. --periapsis-alt and --apoapsis-alt), one with --fpa or --speed, or --speed and --fpa for the orbit they reach".into(),
-            ))
+            let (fpa, speed) = (
+                mention("fpa", "a flight-path angle"),
+                mention("speed", "a speed"),
+            );
+            return Err(Error::Usage(format!(
+                "nothing to target: give two target quantities (e.g. {} and {}), one with {fpa} or {speed}, or {speed} and {fpa} for the orbit they reach",
+                mention("periapsis_radius_m", "a periapsis"),
+                mention("apoapsis_radius_m", "an apoapsis"),
+            )))
         }
         (1, None, None) => {
             return Err(Error::Usage(format!(
-                "{} alone leaves burnout speed and flight-path angle both free: add a second target quantity, or --fpa or --speed",
-                problem.targets[0].flag
+                "{} alone leaves burnout speed and flight-path angle both free: add a second target quantity, or {} or {}",
+                problem.targets[0].mention(),
+                mention("fpa", "a flight-path angle"),
+                mention("speed", "a speed")
             )))
         }
         _ => return numeric::solve_numeric(problem),

@@ -401,8 +401,8 @@ mod tests {
         let p = earth_problem(
             400e3,
             vec![
-                Target::new(Q::PeriapsisRadius, re + 200e3, "--periapsis-alt"),
-                Target::new(Q::ApoapsisRadius, re + 35_786e3, "--apoapsis-alt"),
+                Target::new(Q::PeriapsisRadius, re + 200e3),
+                Target::new(Q::ApoapsisRadius, re + 35_786e3),
             ],
         );
         let s = solve(&p).unwrap();
@@ -421,8 +421,14 @@ mod tests {
 
     #[test]
     fn single_target_alone_is_a_usage_error() {
-        let p = earth_problem(200e3, vec![Target::new(Q::Sma, 7e6, "--sma")]);
-        assert!(matches!(solve(&p), Err(Error::Usage(_))));
+        let p = earth_problem(200e3, vec![Target::new(Q::Sma, 7e6)]);
+        let e = solve(&p).unwrap_err();
+        assert!(matches!(e, Error::Usage(_)));
+        // The core names quantities, never flags; the mention says which.
+        let text = e.to_string();
+        assert!(text.starts_with("semi-major axis alone leaves"), "{text}");
+        assert!(!text.contains("--"), "{text}");
+        assert_eq!(e.mentions(), vec!["sma_m", "fpa", "speed"]);
     }
 
     #[test]
@@ -442,10 +448,7 @@ mod tests {
     #[test]
     fn suborbital_target_warns_but_solves() {
         let re = crate::physics::body::EARTH_RADIUS_M;
-        let mut p = earth_problem(
-            0.0,
-            vec![Target::new(Q::ApoapsisRadius, re + 100e3, "--apoapsis-alt")],
-        );
+        let mut p = earth_problem(0.0, vec![Target::new(Q::ApoapsisRadius, re + 100e3)]);
         p.flight_path_angle_rad = Some(80f64.to_radians());
         let s = solve(&p).unwrap();
         assert!(
@@ -469,8 +472,8 @@ mod tests {
             body,
             burnout_radius_m: Some(r),
             targets: vec![
-                Target::new(Q::PeriapsisRadius, r, "--periapsis-radius"),
-                Target::new(Q::C3, v_inf * v_inf, "--c3"),
+                Target::new(Q::PeriapsisRadius, r),
+                Target::new(Q::C3, v_inf * v_inf),
             ],
             flight_path_angle_rad: None,
             speed_m_s: None,

@@ -1,7 +1,7 @@
 //! Target quantities and the closed-form conversion of any valid pair of them
 //! into a conic.
 
-use crate::error::{finite, g, positive, Error};
+use crate::error::{finite, g, mention, positive, Error};
 use crate::physics::orbit::{check_ecc, Conic};
 use std::f64::consts::PI;
 
@@ -96,24 +96,54 @@ impl TargetQuantity {
     }
 }
 
-/// One target: a quantity, its SI value, and the flag it came from.
+/// One target: a quantity and its SI value.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Target {
     /// What is targeted.
     pub quantity: TargetQuantity,
     /// Its value in SI (radii already measured from the body's centre).
     pub value: f64,
-    /// The flag the user gave, e.g. `--apoapsis-alt`.
-    pub flag: &'static str,
+    /// Where the value comes from.
+    pub source: TargetSource,
+}
+
+/// Where a target's value comes from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum TargetSource {
+    /// Given by the caller.
+    #[default]
+    Given,
+    /// Derived from a given burnout speed (the C3 that speed has at the
+    /// burnout radius).
+    BurnoutSpeed,
 }
 
 impl Target {
-    /// Makes a target.
-    pub fn new(quantity: TargetQuantity, value: f64, flag: &'static str) -> Target {
+    /// Makes a target from a given value.
+    pub fn new(quantity: TargetQuantity, value: f64) -> Target {
         Target {
             quantity,
             value,
-            flag,
+            source: TargetSource::Given,
+        }
+    }
+
+    /// The energy a given burnout speed fixes, as a C3 target.
+    pub fn c3_of_burnout_speed(c3_m2_s2: f64) -> Target {
+        Target {
+            quantity: TargetQuantity::C3,
+            value: c3_m2_s2,
+            source: TargetSource::BurnoutSpeed,
+        }
+    }
+
+    /// The target as a message mentions it (see [`crate::error::mention`]):
+    /// by the quantity's key, or `c3-of-speed` for the energy of a burnout
+    /// speed.
+    pub fn mention(&self) -> String {
+        match self.source {
+            TargetSource::Given => mention(self.quantity.key(), self.quantity.name()),
+            TargetSource::BurnoutSpeed => mention("c3-of-speed", "the c3 of the burnout speed"),
         }
     }
 
@@ -193,14 +223,15 @@ pub fn conic_from_pair(mu_m3_s2: f64, a: &Target, b: &Target) -> Result<Conic, E
     if !a.quantity.is_orbit_element() || !b.quantity.is_orbit_element() {
         return Err(Error::Usage(format!(
             "{} and {} have no closed-form orbit",
-            a.flag, b.flag
+            a.mention(),
+            b.mention()
         )));
     }
     if a.quantity == b.quantity {
         return Err(Error::Usage(format!(
             "{} and {} both give the {}: give it once, with a second target quantity",
-            a.flag,
-            b.flag,
+            a.mention(),
+            b.mention(),
             a.quantity.name()
         )));
     }
@@ -208,7 +239,7 @@ pub fn conic_from_pair(mu_m3_s2: f64, a: &Target, b: &Target) -> Result<Conic, E
     if sa.is_some() && sb.is_some() {
         return Err(Error::Usage(format!(
             "{} and {} both fix only the orbit's size and energy, which cannot define an orbit: pair one of them with a periapsis, apoapsis, eccentricity or semi-latus rectum",
-            a.flag, b.flag
+            a.mention(), b.mention()
         )));
     }
     // Order so that a size quantity, if any, is second.
@@ -234,9 +265,9 @@ pub fn conic_from_pair(mu_m3_s2: f64, a: &Target, b: &Target) -> Result<Conic, E
             if v >= 1.0 {
                 return Err(Error::Infeasible(format!(
                     "{} {} m needs a closed orbit but {} {} is not below 1",
-                    x.flag,
+                    x.mention(),
                     g(u),
-                    y.flag,
+                    y.mention(),
                     g(v)
                 )));
             }
@@ -279,7 +310,8 @@ pub fn conic_from_pair(mu_m3_s2: f64, a: &Target, b: &Target) -> Result<Conic, E
         }
         _ => Err(Error::Usage(format!(
             "{} and {} cannot define an orbit together",
-            x.flag, y.flag
+            x.mention(),
+            y.mention()
         ))),
     }
 }
@@ -288,7 +320,7 @@ pub fn conic_from_pair(mu_m3_s2: f64, a: &Target, b: &Target) -> Result<Conic, E
 fn conic_from_size(mu: f64, x: &Target, s: &Target, alpha: f64) -> Result<Conic, Error> {
     use TargetQuantity as Q;
     let u = x.value;
-    let describe_s = || format!("{} {} {}", s.flag, g(s.value), s.quantity.unit());
+    let describe_s = || format!("{} {} {}", s.mention(), g(s.value), s.quantity.unit());
     match x.quantity {
         Q::PeriapsisRadius => {
             if alpha > 0.0 {
@@ -311,7 +343,7 @@ fn conic_from_size(mu: f64, x: &Target, s: &Target, alpha: f64) -> Result<Conic,
             if alpha <= 0.0 {
                 return Err(Error::Infeasible(format!(
                     "{} {} m needs a closed orbit but {} gives an open one (c3 {} m2/s2 >= 0)",
-                    x.flag,
+                    x.mention(),
                     g(u),
                     describe_s(),
                     g(-alpha * mu)
@@ -334,14 +366,14 @@ fn conic_from_size(mu: f64, x: &Target, s: &Target, alpha: f64) -> Result<Conic,
                 if crate::physics::orbit::exactly(u, 1.0) {
                     return Err(Error::Usage(format!(
                         "{} 1 and {} both say 'parabola' and leave its size free: give a periapsis or semi-latus rectum",
-                        x.flag, s.flag
+                        x.mention(), s.mention()
                     )));
                 }
                 return Err(Error::Infeasible(format!(
                     "{} {} is not parabolic but {} gives a parabola (c3 0)",
-                    x.flag,
+                    x.mention(),
                     g(u),
-                    s.flag
+                    s.mention()
                 )));
             }
             if (alpha > 0.0 && u >= 1.0) || (alpha < 0.0 && u <= 1.0) {
@@ -380,7 +412,8 @@ fn conic_from_size(mu: f64, x: &Target, s: &Target, alpha: f64) -> Result<Conic,
         }
         _ => Err(Error::Usage(format!(
             "{} and {} cannot define an orbit together",
-            x.flag, s.flag
+            x.mention(),
+            s.mention()
         ))),
     }
 }
@@ -395,7 +428,7 @@ mod tests {
     const MU: f64 = crate::physics::body::EARTH_MU_M3_S2;
 
     fn t(q: Q, v: f64) -> Target {
-        Target::new(q, v, "--x")
+        Target::new(q, v)
     }
 
     fn reference() -> Conic {

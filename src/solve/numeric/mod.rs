@@ -34,7 +34,7 @@
 //! period, which jump at the parabola); residuals are reported in the targets'
 //! own units.
 
-use crate::error::{g, Error};
+use crate::error::{g, mention, Error};
 use crate::physics::body::Body;
 #[cfg(test)]
 use crate::physics::kepler::coast_times;
@@ -125,7 +125,12 @@ impl System {
         }
         if unknowns.len() == 3 {
             return Err(Error::Usage(
-                "speed, flight-path angle and burnout radius are all free: fix at least one (--burnout-alt, --fpa or --speed)".into(),
+                format!(
+                    "speed, flight-path angle and burnout radius are all free: fix at least one ({}, {} or {})",
+                    mention("burnout-alt", "burnout altitude"),
+                    mention("fpa", "flight-path angle"),
+                    mention("speed", "speed")
+                ),
             ));
         }
         let body: &Body = &problem.body;
@@ -347,7 +352,7 @@ fn check_not_a_family(system: &System) -> Result<(), Error> {
     if rank >= n {
         return Ok(());
     }
-    let flags: Vec<&str> = system.targets.iter().map(|t| t.flag).collect();
+    let flags: Vec<String> = system.targets.iter().map(|t| t.mention()).collect();
     let free: Vec<&str> = system.unknowns.iter().map(|u| u.name()).collect();
     let why = if deps.iter().all(|d| *d == Dependence::Energy) {
         "fix only the orbital energy"
@@ -362,9 +367,16 @@ fn check_not_a_family(system: &System) -> Result<(), Error> {
         free.len(),
         free.join(", "),
         if has(Dependence::Energy) && !has(Dependence::Shape) {
-            "the shape (e.g. --ecc or --periapsis-alt)"
+            format!(
+                "the shape (e.g. {} or {})",
+                mention(TargetQuantity::Ecc.key(), TargetQuantity::Ecc.name()),
+                mention(
+                    TargetQuantity::PeriapsisRadius.key(),
+                    TargetQuantity::PeriapsisRadius.name()
+                )
+            )
         } else {
-            "another condition (e.g. an apsis or a coast time)"
+            "another condition (e.g. an apsis or a coast time)".to_string()
         }
     )))
 }
@@ -640,7 +652,7 @@ fn describe_residuals(system: &System, st: &BurnoutState) -> String {
             } else {
                 t.quantity.unit()
             };
-            format!("{} {} {}", t.flag, g(*d), unit)
+            format!("{} {} {}", t.mention(), g(*d), unit)
                 .trim_end()
                 .to_string()
         })
@@ -649,7 +661,7 @@ fn describe_residuals(system: &System, st: &BurnoutState) -> String {
 }
 
 fn conflict(problem: &Problem, system: &System, r: f64, v: f64, gamma: f64) -> Error {
-    let flags: Vec<&str> = problem.targets.iter().map(|t| t.flag).collect();
+    let flags: Vec<String> = problem.targets.iter().map(|t| t.mention()).collect();
     match forward_state(system.mu, r, v, gamma) {
         Ok(st) => Error::Infeasible(format!(
             "the targets {} conflict: the best fit (speed {} m/s, flight-path angle {} deg, burnout radius {} m) leaves residuals {}",
@@ -664,7 +676,7 @@ fn conflict(problem: &Problem, system: &System, r: f64, v: f64, gamma: f64) -> E
 }
 
 fn no_solution(problem: &Problem, system: &System, flat: bool) -> Error {
-    let flags: Vec<&str> = problem.targets.iter().map(|t| t.flag).collect();
+    let flags: Vec<String> = problem.targets.iter().map(|t| t.mention()).collect();
     let fixed: Vec<String> = [
         system
             .fixed_radius_m
@@ -744,8 +756,8 @@ mod tests {
             None,
             None,
             vec![
-                Target::new(Q::PeriapsisRadius, rp, "--periapsis-radius"),
-                Target::new(Q::ApoapsisRadius, ra, "--apoapsis-radius"),
+                Target::new(Q::PeriapsisRadius, rp),
+                Target::new(Q::ApoapsisRadius, ra),
             ],
         );
         let exact =
@@ -777,7 +789,7 @@ mod tests {
             Some(r),
             None,
             Some(g),
-            vec![Target::new(Q::TimeToApoapsis, tof, "--time-to-apoapsis")],
+            vec![Target::new(Q::TimeToApoapsis, tof)],
         );
         let s = solve_numeric(&p).unwrap();
         assert!(
@@ -796,12 +808,7 @@ mod tests {
         let re = earth().radius_m;
         let r = re + 400e3;
         let g = 1f64.to_radians();
-        let p = problem(
-            Some(r),
-            None,
-            Some(g),
-            vec![Target::new(Q::Ecc, 0.05, "--ecc")],
-        );
+        let p = problem(Some(r), None, Some(g), vec![Target::new(Q::Ecc, 0.05)]);
         let system = System::new(&p).unwrap();
         let s = solve_system(&p, &system, None).unwrap();
         assert_eq!(s.solutions.len(), 2);
@@ -809,7 +816,7 @@ mod tests {
             earth().mu_m3_s2,
             r,
             g,
-            &Target::new(Q::Ecc, 0.05, "--ecc"),
+            &Target::new(Q::Ecc, 0.05),
         )
         .unwrap();
         for (a, b) in s.solutions.iter().zip(&closed) {
@@ -826,9 +833,9 @@ mod tests {
             None,
             None,
             vec![
-                Target::new(Q::PeriapsisRadius, re + 200e3, "--periapsis-alt"),
-                Target::new(Q::ApoapsisRadius, re + 2_000e3, "--apoapsis-alt"),
-                Target::new(Q::Sma, c.sma_m().unwrap(), "--sma"),
+                Target::new(Q::PeriapsisRadius, re + 200e3),
+                Target::new(Q::ApoapsisRadius, re + 2_000e3),
+                Target::new(Q::Sma, c.sma_m().unwrap()),
             ],
         );
         let s = solve_numeric(&p).unwrap();
@@ -846,16 +853,18 @@ mod tests {
             None,
             None,
             vec![
-                Target::new(Q::PeriapsisRadius, re + 200e3, "--periapsis-alt"),
-                Target::new(Q::ApoapsisRadius, re + 2_000e3, "--apoapsis-alt"),
-                Target::new(Q::Sma, re + 5_000e3, "--sma"),
+                Target::new(Q::PeriapsisRadius, re + 200e3),
+                Target::new(Q::ApoapsisRadius, re + 2_000e3),
+                Target::new(Q::Sma, re + 5_000e3),
             ],
         );
         let e = solve_numeric(&p).unwrap_err();
         let msg = e.to_string();
         assert!(matches!(e, Error::Infeasible(_)));
         assert!(
-            msg.contains("conflict") && msg.contains("--sma") && msg.contains("--apoapsis-alt"),
+            msg.contains("conflict")
+                && msg.contains("semi-major axis")
+                && msg.contains("apoapsis radius"),
             "{msg}"
         );
     }
@@ -873,7 +882,7 @@ mod tests {
             None,
             Some(v),
             Some(0.0),
-            vec![Target::new(Q::ApoapsisRadius, ra, "--apoapsis-radius")],
+            vec![Target::new(Q::ApoapsisRadius, ra)],
         );
         let s = solve_numeric(&p).unwrap();
         assert!(
@@ -899,11 +908,7 @@ mod tests {
             Some(re + 46_744.815_995_133_28),
             None,
             Some(30.598_773_071_413_46f64.to_radians()),
-            vec![Target::new(
-                Q::TimeToPeriapsis,
-                621_000.589_055_352_7,
-                "--time-to-periapsis",
-            )],
+            vec![Target::new(Q::TimeToPeriapsis, 621_000.589_055_352_7)],
         );
         let s = solve_numeric(&p).unwrap();
         assert_relative_eq!(
@@ -922,11 +927,7 @@ mod tests {
             Some(re + 500e3),
             None,
             Some(0.3),
-            vec![Target::new(
-                Q::AngleToApoapsis,
-                270f64.to_radians(),
-                "--angle-to-apoapsis",
-            )],
+            vec![Target::new(Q::AngleToApoapsis, 270f64.to_radians())],
         );
         let e = solve_numeric(&p).unwrap_err();
         assert_eq!(e.class(), crate::ErrorClass::Infeasible);
@@ -963,27 +964,16 @@ mod properties {
     }
 
     fn pair(mu: f64, c: &Conic, which: usize) -> (Target, Target) {
-        let rp = Target::new(
-            Q::PeriapsisRadius,
-            c.periapsis_radius_m(),
-            "--periapsis-radius",
-        );
-        let e = Target::new(Q::Ecc, c.ecc(), "--ecc");
-        let c3 = Target::new(Q::C3, c.c3_m2_s2(mu), "--c3");
-        let p = Target::new(
-            Q::SemiLatusRectum,
-            c.semi_latus_rectum_m(),
-            "--semi-latus-rectum",
-        );
+        let rp = Target::new(Q::PeriapsisRadius, c.periapsis_radius_m());
+        let e = Target::new(Q::Ecc, c.ecc());
+        let c3 = Target::new(Q::C3, c.c3_m2_s2(mu));
+        let p = Target::new(Q::SemiLatusRectum, c.semi_latus_rectum_m());
         match (which, c.apoapsis_radius_m()) {
-            (0, Some(ra)) => (rp, Target::new(Q::ApoapsisRadius, ra, "--apoapsis-radius")),
+            (0, Some(ra)) => (rp, Target::new(Q::ApoapsisRadius, ra)),
             (1, _) => (rp, e),
             (2, _) => (rp, c3),
-            (3, Some(_)) => (
-                e,
-                Target::new(Q::Period, c.period_s(mu).unwrap(), "--period"),
-            ),
-            (3, None) => (e, Target::new(Q::Sma, c.sma_m().unwrap(), "--sma")),
+            (3, Some(_)) => (e, Target::new(Q::Period, c.period_s(mu).unwrap())),
+            (3, None) => (e, Target::new(Q::Sma, c.sma_m().unwrap())),
             _ => (e, p),
         }
     }
