@@ -111,26 +111,11 @@ pub fn run(args: Args) -> Result<i32, Error> {
         ),
     };
     progress.finish();
-    let dest = match &out_file {
-        Some(_) => format!(
-            "--out '{}'",
-            args.out
-                .as_deref()
-                .map(|p| p.display().to_string())
-                .unwrap_or_default()
-        ),
-        None => "standard output".into(),
-    };
+    let out_given = out_file.as_ref().and(args.out.as_deref());
+    let dest = super::destination(out_given);
     let summary = match result {
         Ok(s) => s,
-        Err(BatchError::Write(e))
-            if out_file.is_none() && e.kind() == std::io::ErrorKind::BrokenPipe =>
-        {
-            return Ok(0)
-        }
-        Err(BatchError::Write(e)) => {
-            return Err(Error::Io(format!("cannot write {dest}: {e}")));
-        }
+        Err(BatchError::Write(e)) => return super::write_failure(e, out_given),
         Err(BatchError::Read { error, done }) => {
             // The stop must show: with --out nothing is left (the temporary
             // file goes with `out_file`); on standard output the rows before

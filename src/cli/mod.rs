@@ -287,3 +287,23 @@ pub fn emit(bytes: &[u8]) -> Result<(), Error> {
         Err(e) => Err(Error::Io(format!("cannot write to standard output: {e}"))),
     }
 }
+
+/// Where a command's rows go, as messages name it: `--out 'FILE'` (as the
+/// user gave it) or standard output.
+pub fn destination(out: Option<&std::path::Path>) -> String {
+    match out {
+        Some(p) => format!("--out '{}'", p.display()),
+        None => "standard output".into(),
+    }
+}
+
+/// What a failed write of a command's rows means: a closed pipe on
+/// standard output ends the run quietly (exit 0, like other tools in a
+/// pipeline); anything else is an I/O error naming the destination.
+pub fn write_failure(e: std::io::Error, out: Option<&std::path::Path>) -> Result<i32, Error> {
+    if out.is_none() && e.kind() == std::io::ErrorKind::BrokenPipe {
+        Ok(0)
+    } else {
+        Err(Error::Io(format!("cannot write {}: {e}", destination(out))))
+    }
+}

@@ -169,14 +169,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
     progress.finish();
     let report = match result {
         Ok(r) => r,
-        Err(e) if out_file.is_none() && e.kind() == std::io::ErrorKind::BrokenPipe => return Ok(0),
-        Err(e) => {
-            let dest = match &out_file {
-                Some(_) => format!("--out '{}'", shown(args.out.as_deref())),
-                None => "standard output".into(),
-            };
-            return Err(Error::Io(format!("cannot write {dest}: {e}")));
-        }
+        Err(e) => return super::write_failure(e, out_file.as_ref().and(args.out.as_deref())),
     };
     // The figure is written before either file is committed, and the two
     // are committed together: both or neither.

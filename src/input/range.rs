@@ -165,16 +165,88 @@ pub fn parse_range(flag: &str, text: &str, kind: Kind) -> Result<Grid, Error> {
         kind: "range",
         reason,
     };
+    let syntax = split_syntax(text).map_err(fail)?;
+    let raw: Vec<(&'static str, &str)> = [
+        Some(("start", syntax.start)),
+        Some(("end", syntax.end)),
+        syntax.step.map(|s| ("step", s)),
+    ]
+    .into_iter()
+    .flatten()
+    .collect();
+    let split: Vec<(&str, &str)> = raw.iter().map(|(_, t)| split_part(t)).collect();
+    check_numbers(&raw, &split).map_err(fail)?;
+    // The range's unit: END's, else START's, else STEP's.
+    let range_unit = [1usize, 0, 2]
+        .iter()
+        .filter_map(|&i| split.get(i))
+        .map(|(_, u)| *u)
+        .find(|u| !u.is_empty())
+        .unwrap_or("");
+    blame_written_units(flag, kind, &raw, &split).map_err(fail)?;
+    let parts = parse_parts(flag, kind, &raw, &split, range_unit).map_err(fail)?;
+    check_one_kind(&parts).map_err(fail)?;
+    let value_kind = parts[0].kind;
+    // Everything in the unit of the range; exact for parts written in it.
+    let base = parts
+        .iter()
+        .find(|p| p.unit == range_unit)
+        .map(|p| p.si_per_unit)
+        .unwrap_or(parts[1].si_per_unit);
+    let in_unit = |p: &Part| {
+        if p.unit == range_unit {
+            p.number
+        } else {
+            p.number * (p.si_per_unit / base)
+        }
+    };
+    let start_u = in_unit(&parts[0]);
+    let end_u = in_unit(&parts[1]);
+    let (step_u, len, snap) = match syntax.count {
+        Some(n_text) => count_points(n_text, start_u, end_u).map_err(fail)?,
+        None => {
+            let step = in_unit(&parts[2]);
+            step_points(&parts[2], step, start_u, end_u, range_unit).map_err(fail)?
+        }
+    };
+    let si_per_unit = base;
+    let out_per_unit = if value_kind == Kind::Angle {
+        si_per_unit / (std::f64::consts::PI / 180.0)
+    } else {
+        si_per_unit
+    };
+    Ok(Grid {
+        start_u,
+        step_u,
+        len,
+        end_u: snap,
+        si_per_unit,
+        out_per_unit,
+        kind: value_kind,
+        unit: range_unit.to_string(),
+    })
+}
+
+/// The texts of a range's parts: START, END, and STEP or N.
+struct Syntax<'a> {
+    start: &'a str,
+    end: &'a str,
+    step: Option<&'a str>,
+    count: Option<&'a str>,
+}
+
+/// Splits `START..END:STEP` or `START..END/N`; the reason when it is neither.
+fn split_syntax(text: &str) -> Result<Syntax<'_>, String> {
     let Some(dots) = text.find("..") else {
-        return Err(fail("expected START..END:STEP or START..END/N".into()));
+        return Err("expected START..END:STEP or START..END/N".into());
     };
     if text[dots..].starts_with("...") {
-        return Err(fail("three dots: write START..END with two".into()));
+        return Err("three dots: write START..END with two".into());
     }
-    let start_text = &text[..dots];
+    let start = &text[..dots];
     let rest = &text[dots + 2..];
     // `:STEP`, else `/N` where N starts with a digit (a unit's '/' never does).
-    let (end_text, step_text, count_text) = if let Some(colon) = rest.find(':') {
+    let (end, step, count) = if let Some(colon) = rest.find(':') {
         (&rest[..colon], Some(&rest[colon + 1..]), None)
     } else if let Some(slash) = rest.rfind('/').filter(|&i| {
         rest[i + 1..]
@@ -183,38 +255,32 @@ pub fn parse_range(flag: &str, text: &str, kind: Kind) -> Result<Grid, Error> {
     }) {
         (&rest[..slash], None, Some(rest[slash + 1..].trim()))
     } else {
-        return Err(fail(
+        return Err(
             "missing step: write START..END:STEP (e.g. 150km..600km:5km) or START..END/N (N points)"
                 .into(),
-        ));
+        );
     };
-    if start_text.trim().is_empty() {
-        return Err(fail("missing START before '..'".into()));
+    if start.trim().is_empty() {
+        return Err("missing START before '..'".into());
     }
-    if end_text.trim().is_empty() {
-        return Err(fail("missing END after '..'".into()));
+    if end.trim().is_empty() {
+        return Err("missing END after '..'".into());
     }
-    if step_text.is_some_and(|s| s.trim().is_empty()) {
-        return Err(fail("missing STEP after ':'".into()));
+    if step.is_some_and(|s| s.trim().is_empty()) {
+        return Err("missing STEP after ':'".into());
     }
-    let raw: Vec<(&'static str, &str)> = [
-        Some(("start", start_text)),
-        Some(("end", end_text)),
-        step_text.map(|s| ("step", s)),
-    ]
-    .into_iter()
-    .flatten()
-    .collect();
-    let split: Vec<(&str, &str, &str)> = raw
-        .iter()
-        .map(|(role, t)| {
-            let (n, u) = split_part(t);
-            (*role, n, u)
-        })
-        .collect();
-    // A part without a number (`nan`, `inf`, a lone unit) is blamed on
-    // itself, before its text could be taken for the range's unit.
-    for ((role, t), (_, number_text, _)) in raw.iter().zip(&split) {
+    Ok(Syntax {
+        start,
+        end,
+        step,
+        count,
+    })
+}
+
+/// A part without a number (`nan`, `inf`, a lone unit) is blamed on itself,
+/// before its text could be taken for the range's unit.
+fn check_numbers(raw: &[(&str, &str)], split: &[(&str, &str)]) -> Result<(), String> {
+    for ((role, t), (number_text, _)) in raw.iter().zip(split) {
         if number_text.trim().is_empty() {
             let lower = t.trim().to_ascii_lowercase();
             let word = lower.trim_start_matches(['+', '-']);
@@ -223,45 +289,62 @@ pub fn parse_range(flag: &str, text: &str, kind: Kind) -> Result<Grid, Error> {
             } else {
                 "not a number"
             };
-            return Err(fail(format!("{role} '{}' is {why}", t.trim())));
+            return Err(format!("{role} '{}' is {why}", t.trim()));
         }
     }
-    // The range's unit: END's, else START's, else STEP's.
-    let range_unit = [1usize, 0, 2]
+    Ok(())
+}
+
+/// The reason when `full` (a part with its unit) is a value of another kind
+/// than `kind`: only a unit can say so (a bare number is no kind's own).
+fn other_kind(flag: &str, kind: Kind, role: &str, text: &str, full: &str) -> Option<String> {
+    let other = OTHER_KINDS
         .iter()
-        .filter_map(|&i| split.get(i))
-        .map(|(_, _, u)| *u)
-        .find(|u| !u.is_empty())
-        .unwrap_or("");
-    // Parts that carry their own unit are checked first, so a wrong unit is
-    // blamed on the part that wrote it, not on a bare part that inherited it.
-    let mut order: Vec<usize> = (0..raw.len()).collect();
-    order.sort_by_key(|&i| split[i].2.is_empty());
-    for &i in &order {
+        .find(|k| **k != kind && parse(flag, full, **k).is_ok())?;
+    Some(format!(
+        "{role} '{}' is {} {} but {flag} takes {} {}",
+        text.trim(),
+        article(*other),
+        other.name(),
+        article(kind),
+        kind.name()
+    ))
+}
+
+/// Parts that carry their own unit are checked first, so a wrong unit is
+/// blamed on the part that wrote it, not on a bare part that inherited it.
+fn blame_written_units(
+    flag: &str,
+    kind: Kind,
+    raw: &[(&str, &str)],
+    split: &[(&str, &str)],
+) -> Result<(), String> {
+    for i in 0..raw.len() {
         let (role, t) = raw[i];
-        let (_, number_text, unit) = split[i];
+        let (number_text, unit) = split[i];
         if unit.is_empty() {
             continue;
         }
         let full = format!("{number_text} {unit}");
         if parse(flag, &full, kind).is_err() {
-            if let Some(other) = OTHER_KINDS
-                .iter()
-                .find(|k| **k != kind && parse(flag, &full, **k).is_ok())
-            {
-                return Err(fail(format!(
-                    "{role} '{}' is {} {} but {flag} takes {} {}",
-                    t.trim(),
-                    article(*other),
-                    other.name(),
-                    article(kind),
-                    kind.name()
-                )));
+            if let Some(why) = other_kind(flag, kind, role, t, &full) {
+                return Err(why);
             }
         }
     }
+    Ok(())
+}
+
+/// Each part read as a value of `kind`, bare parts in the range's unit.
+fn parse_parts<'a>(
+    flag: &str,
+    kind: Kind,
+    raw: &[(&'static str, &'a str)],
+    split: &[(&'a str, &'a str)],
+    range_unit: &'a str,
+) -> Result<Vec<Part<'a>>, String> {
     let mut parts: Vec<Part> = Vec::with_capacity(3);
-    for ((role, t), (_, number_text, unit)) in raw.iter().zip(&split) {
+    for ((role, t), (number_text, unit)) in raw.iter().zip(split) {
         let unit = if unit.is_empty() { range_unit } else { unit };
         let full = if unit.is_empty() {
             t.trim().to_string()
@@ -271,27 +354,17 @@ pub fn parse_range(flag: &str, text: &str, kind: Kind) -> Result<Grid, Error> {
         let parsed = match parse(flag, &full, kind) {
             Ok(p) => p,
             Err(e) => {
-                // Say plainly when a part is a value of another kind (only
-                // a unit can say so: a bare number is no kind's own).
-                if let Some(other) = OTHER_KINDS
-                    .iter()
-                    .filter(|_| !unit.is_empty())
-                    .find(|k| **k != kind && parse(flag, &full, **k).is_ok())
+                if let Some(why) = (!unit.is_empty())
+                    .then(|| other_kind(flag, kind, role, t, &full))
+                    .flatten()
                 {
-                    return Err(fail(format!(
-                        "{role} '{}' is {} {} but {flag} takes {} {}",
-                        t.trim(),
-                        article(*other),
-                        other.name(),
-                        article(kind),
-                        kind.name()
-                    )));
+                    return Err(why);
                 }
                 let reason = match e {
                     Error::InvalidValue { reason, .. } => reason,
                     other => other.to_string(),
                 };
-                return Err(fail(format!("{role} '{}': {reason}", t.trim())));
+                return Err(format!("{role} '{}': {reason}", t.trim()));
             }
         };
         let number: f64 = number_text.parse().unwrap_or(f64::NAN);
@@ -312,9 +385,14 @@ pub fn parse_range(flag: &str, text: &str, kind: Kind) -> Result<Grid, Error> {
             si_per_unit,
         });
     }
-    // Ends (and step) of one kind: matters for inputs that take two kinds.
-    if let Some(odd) = parts.iter().find(|p| p.kind != parts[0].kind) {
-        return Err(fail(format!(
+    Ok(parts)
+}
+
+/// Ends (and step) of one kind: matters for inputs that take two kinds.
+fn check_one_kind(parts: &[Part]) -> Result<(), String> {
+    match parts.iter().find(|p| p.kind != parts[0].kind) {
+        None => Ok(()),
+        Some(odd) => Err(format!(
             "ends of different kinds: {} '{}' is {} {} but {} '{}' is {} {}",
             parts[0].role,
             parts[0].text,
@@ -324,24 +402,39 @@ pub fn parse_range(flag: &str, text: &str, kind: Kind) -> Result<Grid, Error> {
             odd.text,
             article(odd.kind),
             odd.kind.name()
-        )));
+        )),
     }
-    let value_kind = parts[0].kind;
-    // Everything in the unit of the range; exact for parts written in it.
-    let base = parts
-        .iter()
-        .find(|p| p.unit == range_unit)
-        .map(|p| p.si_per_unit)
-        .unwrap_or(parts[1].si_per_unit);
-    let in_unit = |p: &Part| {
-        if p.unit == range_unit {
-            p.number
-        } else {
-            p.number * (p.si_per_unit / base)
-        }
-    };
-    let start_u = in_unit(&parts[0]);
-    let end_u = in_unit(&parts[1]);
+}
+
+/// `/N`: N points with both ends (step, points, the snapped end).
+fn count_points(
+    n_text: &str,
+    start_u: f64,
+    end_u: f64,
+) -> Result<(f64, usize, Option<f64>), String> {
+    let n: u64 = n_text.parse::<u64>().map_err(|_| {
+        format!("N in '/N' must be a whole number of points, 2 or more (got '{n_text}')")
+    })?;
+    if n < 2 {
+        return Err(format!(
+            "N in '/N' must be 2 or more: both ends are points (got {n})"
+        ));
+    }
+    if n > MAX_POINTS {
+        return Err(format!("{n} points is more than the limit {MAX_POINTS}"));
+    }
+    Ok(((end_u - start_u) / (n - 1) as f64, n as usize, Some(end_u)))
+}
+
+/// `:STEP`: points START + k STEP up to END (step, points, END when it lies
+/// on the grid within [`END_TOLERANCE`] of a step).
+fn step_points(
+    step: &Part,
+    step_u: f64,
+    start_u: f64,
+    end_u: f64,
+    range_unit: &str,
+) -> Result<(f64, usize, Option<f64>), String> {
     let span = end_u - start_u;
     let describe = |x_u: f64| {
         if range_unit.is_empty() {
@@ -350,76 +443,33 @@ pub fn parse_range(flag: &str, text: &str, kind: Kind) -> Result<Grid, Error> {
             format!("{} {range_unit}", g(x_u))
         }
     };
-    let (step_u, len, snap) = match count_text {
-        Some(n_text) => {
-            let n: u64 = match n_text.parse::<u64>() {
-                Ok(n) => n,
-                Err(_) => {
-                    return Err(fail(format!(
-                        "N in '/N' must be a whole number of points, 2 or more (got '{n_text}')"
-                    )))
-                }
-            };
-            if n < 2 {
-                return Err(fail(format!(
-                    "N in '/N' must be 2 or more: both ends are points (got {n})"
-                )));
-            }
-            if n > MAX_POINTS {
-                return Err(fail(format!(
-                    "{n} points is more than the limit {MAX_POINTS}"
-                )));
-            }
-            (span / (n - 1) as f64, n as usize, Some(end_u))
-        }
-        None => {
-            let step_u = in_unit(&parts[2]);
-            if !step_u.is_finite() || step_u == 0.0 {
-                return Err(fail(format!(
-                    "step '{}' is zero: expected a non-zero step",
-                    parts[2].text
-                )));
-            }
-            if span != 0.0 && (span > 0.0) != (step_u > 0.0) {
-                return Err(fail(format!(
-                    "the range runs {} from {} to {} but the step {} is {}: expected a {} step",
-                    if span > 0.0 { "upward" } else { "downward" },
-                    describe(start_u),
-                    describe(end_u),
-                    describe(step_u),
-                    if step_u > 0.0 { "positive" } else { "negative" },
-                    if span > 0.0 { "positive" } else { "negative" },
-                )));
-            }
-            let steps = span / step_u;
-            if !steps.is_finite() || steps + 1.0 > MAX_POINTS as f64 {
-                return Err(fail(format!(
-                    "{} points is more than the limit {MAX_POINTS}: use a larger step",
-                    g((steps + 1.0).floor())
-                )));
-            }
-            let last = (steps + END_TOLERANCE).floor() as usize;
-            let on_grid =
-                (start_u + last as f64 * step_u - end_u).abs() <= END_TOLERANCE * step_u.abs();
-            (step_u, last + 1, on_grid.then_some(end_u))
-        }
-    };
-    let si_per_unit = base;
-    let out_per_unit = if value_kind == Kind::Angle {
-        si_per_unit / (std::f64::consts::PI / 180.0)
-    } else {
-        si_per_unit
-    };
-    Ok(Grid {
-        start_u,
-        step_u,
-        len,
-        end_u: snap,
-        si_per_unit,
-        out_per_unit,
-        kind: value_kind,
-        unit: range_unit.to_string(),
-    })
+    if !step_u.is_finite() || step_u == 0.0 {
+        return Err(format!(
+            "step '{}' is zero: expected a non-zero step",
+            step.text
+        ));
+    }
+    if span != 0.0 && (span > 0.0) != (step_u > 0.0) {
+        return Err(format!(
+            "the range runs {} from {} to {} but the step {} is {}: expected a {} step",
+            if span > 0.0 { "upward" } else { "downward" },
+            describe(start_u),
+            describe(end_u),
+            describe(step_u),
+            if step_u > 0.0 { "positive" } else { "negative" },
+            if span > 0.0 { "positive" } else { "negative" },
+        ));
+    }
+    let steps = span / step_u;
+    if !steps.is_finite() || steps + 1.0 > MAX_POINTS as f64 {
+        return Err(format!(
+            "{} points is more than the limit {MAX_POINTS}: use a larger step",
+            g((steps + 1.0).floor())
+        ));
+    }
+    let last = (steps + END_TOLERANCE).floor() as usize;
+    let on_grid = (start_u + last as f64 * step_u - end_u).abs() <= END_TOLERANCE * step_u.abs();
+    Ok((step_u, last + 1, on_grid.then_some(end_u)))
 }
 
 #[cfg(test)]

@@ -2,7 +2,8 @@
 //! `scan` and `batch`).
 
 pub use crate::columns::{sensitivity_columns, RESULT_COLUMNS, SITE_COLUMNS};
-use crate::solve::problem::{Solution, Solved};
+use crate::report::rows::Record;
+use crate::solve::problem::Solved;
 use std::io::Write;
 
 /// The values of [`SITE_COLUMNS`] for a site state.
@@ -74,95 +75,34 @@ pub fn push_cell_bytes(buf: &mut Vec<u8>, cell: &[u8], neutralise: bool) {
     }
 }
 
-/// Shortest round-trip text of a float; empty for `None`.
-pub fn fmt_opt(x: Option<f64>) -> String {
-    match x {
-        Some(v) if v.is_finite() => {
-            let mut b = ryu::Buffer::new();
-            let s = b.format_finite(v);
-            s.strip_suffix(".0").unwrap_or(s).to_string()
-        }
-        _ => String::new(),
-    }
-}
-
-/// Result fields for one solution (status `ok`).
-pub fn solution_fields(mu_m3_s2: f64, s: &Solution, sensitivities: bool) -> Vec<String> {
-    let st = &s.state;
-    let c = &st.conic;
-    let mut f = vec![
-        "ok".to_string(),
-        safe_message(
-            &s.warnings
-                .iter()
-                .map(|w| w.to_string())
-                .collect::<Vec<_>>()
-                .join("; "),
-        )
-        .into_owned(),
-        st.branch.name().to_string(),
-        fmt_opt(Some(st.speed_m_s)),
-        fmt_opt(Some(st.flight_path_angle_rad.to_degrees())),
-        fmt_opt(Some(st.true_anomaly_rad.to_degrees())),
-        fmt_opt(Some(c.periapsis_radius_m())),
-        fmt_opt(c.apoapsis_radius_m()),
-        fmt_opt(c.sma_m()),
-        fmt_opt(Some(c.ecc())),
-        fmt_opt(c.period_s(mu_m3_s2)),
-        fmt_opt(Some(c.c3_m2_s2(mu_m3_s2))),
-        fmt_opt(Some(st.radius_m)),
-    ];
-    if sensitivities {
-        for row in s.sensitivity.rows {
-            for k in 0..3 {
-                f.push(fmt_opt(row.map(|r| r[k])));
-            }
-        }
-    }
-    f
-}
-
-/// Result fields for a row that did not solve.
-pub fn failure_fields(status: &str, message: &str, sensitivities: bool) -> Vec<String> {
-    let mut f = vec![status.to_string(), safe_message(message).into_owned()];
-    let blanks = RESULT_COLUMNS.len() - 2 + if sensitivities { 15 } else { 0 };
-    f.extend(std::iter::repeat_n(String::new(), blanks));
-    f
-}
-
-/// Writes a solved problem as CSV: header, then one row per solution.
+/// Writes a solved problem as CSV: header, then one row per solution
+/// (the same record writer as scan and batch rows).
 ///
 /// # Errors
-/// I/O or CSV errors.
-pub fn write(out: &mut impl Write, solved: &Solved, sensitivities: bool) -> Result<(), csv::Error> {
-    let mut w = csv::Writer::from_writer(out);
-    let mut header: Vec<String> = RESULT_COLUMNS.iter().map(|s| s.to_string()).collect();
+/// I/O errors of `out`.
+pub fn write(out: &mut impl Write, solved: &Solved, sensitivities: bool) -> std::io::Result<()> {
+    let mut buf = Vec::with_capacity(1024);
+    let mut header = Record::new(&mut buf);
+    for c in RESULT_COLUMNS {
+        header.text(c);
+    }
     if sensitivities {
-        header.extend(sensitivity_columns());
+        for c in sensitivity_columns() {
+            header.text(&c);
+        }
     }
-    w.write_record(&header)?;
+    header.end();
     for s in &solved.solutions {
-        w.write_record(solution_fields(solved.body.mu_m3_s2, s, sensitivities))?;
+        Record::new(&mut buf)
+            .solution(solved.body.mu_m3_s2, s, sensitivities)
+            .end();
     }
-    w.flush()?;
-    Ok(())
+    out.write_all(&buf)
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn floats_round_trip_and_integers_drop_the_point() {
-        assert_eq!(fmt_opt(Some(6578137.0)), "6578137");
-        assert_eq!(fmt_opt(Some(0.1)), "0.1");
-        assert_eq!(fmt_opt(None), "");
-        let x = 1.0 / 3.0;
-        assert_eq!(
-            fmt_opt(Some(x)).parse::<f64>().unwrap().to_bits(),
-            x.to_bits()
-        );
-    }
 
     #[test]
     fn messages_never_start_like_a_formula() {

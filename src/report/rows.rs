@@ -1,10 +1,9 @@
 //! Result rows shared by `scan` and `batch`: which branches to keep, and a
 //! CSV record writer that formats straight into a reused byte buffer.
 //!
-//! The fields written here are exactly those of [`super::csv::solution_fields`]
-//! and [`super::csv::failure_fields`] (a unit test holds them together); this
-//! writer only avoids building a `String` per field, which matters when a
-//! scan writes millions of rows.
+//! The one CSV record writer (solve's CSV, scan and batch rows): it formats
+//! straight into a byte buffer, with no `String` per field, which matters
+//! when a scan writes millions of rows.
 
 use crate::solve::feasibility::Warning;
 use crate::solve::problem::{Solution, SolutionView};
@@ -20,7 +19,7 @@ pub fn warning_tag(w: &Warning) -> String {
 }
 
 /// Appends the shortest text that reads back as `x` (as
-/// [`super::csv::fmt_opt`]: no trailing `.0`); nothing for a non-finite value.
+/// `report::float`: no trailing `.0`); nothing for a non-finite value.
 pub fn push_float(buf: &mut Vec<u8>, x: f64) {
     super::float::push_f64(buf, x);
 }
@@ -228,7 +227,6 @@ mod tests {
     use super::*;
     use crate::input::problem::{problem_from_inputs, Inputs};
     use crate::physics::state::Branch;
-    use crate::report::csv::{failure_fields, solution_fields};
     use crate::solve::problem::{BranchChoice, Solved};
 
     fn solved(pairs: &[(&str, &str)]) -> Solved {
@@ -249,7 +247,7 @@ mod tests {
     }
 
     #[test]
-    fn solution_record_matches_the_csv_report_fields() {
+    fn solution_record_reads_back_as_the_solution_bit_for_bit() {
         // A suborbital shot: its warning text holds commas, so quoting is exercised.
         for pairs in [
             &[
@@ -269,20 +267,58 @@ mod tests {
             ][..],
         ] {
             let s = solved(pairs);
+            let mu = s.body.mu_m3_s2;
             for sens in [false, true] {
                 let mut buf = Vec::new();
                 for sol in &s.solutions {
-                    Record::new(&mut buf)
-                        .solution(s.body.mu_m3_s2, sol, sens)
-                        .end();
+                    Record::new(&mut buf).solution(mu, sol, sens).end();
                 }
-                let got = read_back(&buf);
-                let want: Vec<Vec<String>> = s
-                    .solutions
-                    .iter()
-                    .map(|sol| solution_fields(s.body.mu_m3_s2, sol, sens))
-                    .collect();
-                assert_eq!(got, want, "{pairs:?}");
+                let rows = read_back(&buf);
+                assert_eq!(rows.len(), s.solutions.len());
+                for (row, sol) in rows.iter().zip(&s.solutions) {
+                    assert_eq!(row.len(), 13 + if sens { 15 } else { 0 }, "{pairs:?}");
+                    let st = &sol.state;
+                    let c = &st.conic;
+                    let msg: Vec<String> = sol.warnings.iter().map(|w| w.to_string()).collect();
+                    assert_eq!(row[0], "ok");
+                    assert_eq!(row[1], crate::report::csv::safe_message(&msg.join("; ")));
+                    assert_eq!(row[2], st.branch.name());
+                    let want = [
+                        Some(st.speed_m_s),
+                        Some(st.flight_path_angle_rad.to_degrees()),
+                        Some(st.true_anomaly_rad.to_degrees()),
+                        Some(c.periapsis_radius_m()),
+                        c.apoapsis_radius_m(),
+                        c.sma_m(),
+                        Some(c.ecc()),
+                        c.period_s(mu),
+                        Some(c.c3_m2_s2(mu)),
+                        Some(st.radius_m),
+                    ];
+                    for (cell, w) in row[3..13].iter().zip(want) {
+                        match w {
+                            Some(x) => {
+                                assert_eq!(cell.parse::<f64>().unwrap().to_bits(), x.to_bits())
+                            }
+                            None => assert_eq!(cell, ""),
+                        }
+                    }
+                    if sens {
+                        let partials = sol
+                            .sensitivity
+                            .rows
+                            .iter()
+                            .flat_map(|r| (0..3).map(move |k| r.map(|x| x[k])));
+                        for (cell, w) in row[13..].iter().zip(partials) {
+                            match w {
+                                Some(x) => {
+                                    assert_eq!(cell.parse::<f64>().unwrap().to_bits(), x.to_bits())
+                                }
+                                None => assert_eq!(cell, ""),
+                            }
+                        }
+                    }
+                }
             }
         }
         let sub = solved(&[
@@ -294,15 +330,17 @@ mod tests {
     }
 
     #[test]
-    fn failure_record_matches_the_csv_report_fields() {
+    fn failure_record_is_status_message_and_blanks() {
         let mut buf = Vec::new();
         Record::new(&mut buf)
             .failure("infeasible", "a \"quoted\", message", true)
             .end();
-        assert_eq!(
-            read_back(&buf),
-            vec![failure_fields("infeasible", "a \"quoted\", message", true)]
-        );
+        let mut want = vec![
+            "infeasible".to_string(),
+            "a \"quoted\", message".to_string(),
+        ];
+        want.extend(std::iter::repeat_n(String::new(), 11 + 15));
+        assert_eq!(read_back(&buf), vec![want]);
     }
 
     #[test]
