@@ -82,12 +82,69 @@ fn duration(t_s: f64) -> String {
 /// # Errors
 /// I/O errors of `out`.
 pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std::io::Result<()> {
-    let (lu, lf) = units.length();
-    let (su, sf) = units.speed();
-    let body = &solved.body;
-    let mu = body.mu_m3_s2;
-    let shared = solved.shared_burnout_radius_m();
-    if let Some(r) = shared {
+    let c = Ctx::new(solved, units);
+    write_burnout(out, &c)?;
+    write_states(out, &c)?;
+    write_site(out, &c)?;
+    write_orbits(out, &c)?;
+    write_coefficients(out, &c)?;
+    let warnings = solved.warnings();
+    if !warnings.is_empty() {
+        writeln!(out)?;
+        writeln!(out, "warnings:")?;
+        for w in warnings {
+            writeln!(out, "  - {w}")?;
+        }
+    }
+    writeln!(out)?;
+    writeln!(out, "{}", super::CAUTION)?;
+    Ok(())
+}
+
+/// What every part of the table shares: the answer and its display units.
+struct Ctx<'a> {
+    solved: &'a Solved,
+    units: DisplayUnits,
+    lu: &'static str,
+    lf: f64,
+    su: &'static str,
+    sf: f64,
+    body: &'a crate::physics::body::Body,
+    mu: f64,
+    shared: Option<f64>,
+}
+
+impl<'a> Ctx<'a> {
+    fn new(solved: &'a Solved, units: DisplayUnits) -> Ctx<'a> {
+        let (lu, lf) = units.length();
+        let (su, sf) = units.speed();
+        Ctx {
+            solved,
+            units,
+            lu,
+            lf,
+            su,
+            sf,
+            body: &solved.body,
+            mu: solved.body.mu_m3_s2,
+            shared: solved.shared_burnout_radius_m(),
+        }
+    }
+
+    /// Decimals of a speed in the display unit.
+    fn speed_decimals(&self) -> usize {
+        if self.units == DisplayUnits::Us {
+            2
+        } else {
+            6
+        }
+    }
+}
+
+/// The burnout point and how the answer was found.
+fn write_burnout(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
+    let (lu, lf, su, sf, body, solved) = (c.lu, c.lf, c.su, c.sf, c.body, c.solved);
+    if let Some(r) = c.shared {
         writeln!(
             out,
             "burnout over {}: altitude {} {lu} (radius {} {lu})",
@@ -121,10 +178,13 @@ pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std:
             writeln!(out, "  residual {k}: {}", g(*v))?;
         }
     }
-    let distinct_orbits = solved
-        .solutions
-        .windows(2)
-        .any(|w| w[0].state.conic != w[1].state.conic);
+    Ok(())
+}
+
+/// One line per solution: branch, (altitude), speed, angles.
+fn write_states(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
+    let (lu, lf, su, sf, body, solved, shared) =
+        (c.lu, c.lf, c.su, c.sf, c.body, c.solved, c.shared);
     writeln!(out)?;
     let alt_column = |r: f64| {
         if shared.is_none() {
@@ -154,15 +214,18 @@ pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std:
             "{:<11}{} {:>13} {:>12} {:>12} {:>16}",
             st.branch.name(),
             alt_column(st.radius_m),
-            fixed(
-                st.speed_m_s / sf,
-                if units == DisplayUnits::Us { 2 } else { 6 }
-            ),
+            fixed(st.speed_m_s / sf, c.speed_decimals()),
             fixed(st.flight_path_angle_rad.to_degrees(), 6),
             fixed(90.0 - st.flight_path_angle_rad.to_degrees(), 6),
             fixed(st.true_anomaly_rad.to_degrees(), 4)
         )?;
     }
+    Ok(())
+}
+
+/// The launch-site geometry of each solution, when a site was given.
+fn write_site(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
+    let (su, sf, solved) = (c.su, c.sf, c.solved);
     if solved.solutions.iter().any(|s| s.site.is_some()) {
         writeln!(out)?;
         writeln!(
@@ -189,10 +252,7 @@ pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std:
                     fixed(x.burnout_longitude_rad.to_degrees(), 4),
                     fixed(x.inertial_azimuth_rad.to_degrees(), 4),
                     fixed(x.inclination_rad.to_degrees(), 4),
-                    fixed(
-                        x.relative_speed_m_s / sf,
-                        if units == DisplayUnits::Us { 2 } else { 6 }
-                    ),
+                    fixed(x.relative_speed_m_s / sf, c.speed_decimals()),
                     fixed(x.relative_flight_path_angle_rad.to_degrees(), 4),
                     fixed(x.relative_azimuth_rad.to_degrees(), 4)
                 )?;
@@ -204,6 +264,16 @@ pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std:
             fixed(solved.solutions.iter().find_map(|s| s.site).map(|x| x.rotation_speed_m_s).unwrap_or(0.0) / sf, 4)
         )?;
     }
+    Ok(())
+}
+
+/// The orbit (one per distinct orbit among the solutions).
+fn write_orbits(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
+    let (lu, lf, body, solved, mu) = (c.lu, c.lf, c.body, c.solved, c.mu);
+    let distinct_orbits = solved
+        .solutions
+        .windows(2)
+        .any(|w| w[0].state.conic != w[1].state.conic);
     let orbits: Vec<_> = if distinct_orbits {
         solved.solutions.iter().collect()
     } else {
@@ -259,6 +329,12 @@ pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std:
             fixed(c.angular_momentum_m2_s(mu) / 1e6, 3)
         )?;
     }
+    Ok(())
+}
+
+/// The change of each orbit quantity per typical burnout error.
+fn write_coefficients(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
+    let (lu, lf, su, sf, solved, units) = (c.lu, c.lf, c.su, c.sf, c.solved, c.units);
     let (vs_label, vs) = units.speed_step();
     let (alt_label, alt_step) = units.alt_step();
     for s in &solved.solutions {
@@ -300,15 +376,5 @@ pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std:
             }
         }
     }
-    let warnings = solved.warnings();
-    if !warnings.is_empty() {
-        writeln!(out)?;
-        writeln!(out, "warnings:")?;
-        for w in warnings {
-            writeln!(out, "  - {w}")?;
-        }
-    }
-    writeln!(out)?;
-    writeln!(out, "{}", super::CAUTION)?;
     Ok(())
 }

@@ -220,117 +220,14 @@ pub fn speed_for_target(
     target.validate()?;
     let r = radius_m;
     let gamma = flight_path_angle_rad;
-    let (s, c) = gamma.sin_cos();
-    let c = c.max(0.0);
     let gdeg = g(gamma.to_degrees());
     let mu = mu_m3_s2;
     let x = target.value;
     let speeds: Vec<f64> = match target.quantity {
-        Q::PeriapsisRadius | Q::ApoapsisRadius => {
-            let is_apo = target.quantity == Q::ApoapsisRadius;
-            let same = (x - r).abs() <= APSIS_TOLERANCE * r;
-            if same && gamma == 0.0 {
-                let vc = (mu / r).sqrt();
-                return Err(Error::Usage(format!(
-                    "{} {} m equals the burnout radius with a horizontal flight-path angle: every speed {} circular speed {} m/s reaches it; give a second target quantity",
-                    target.mention(),
-                    g(x),
-                    if is_apo { "up to" } else { "from" },
-                    g(vc)
-                )));
-            }
-            if is_apo && x <= r {
-                return Err(Error::Infeasible(format!(
-                    "target apoapsis radius {} m is not above the burnout radius {} m",
-                    g(x),
-                    g(r)
-                )));
-            }
-            let half = (0.5 * gamma).sin();
-            let d_minus = (x - r) + 2.0 * r * half * half; // R - r cos g
-            if !is_apo && (x >= r || d_minus >= 0.0) {
-                return Err(Error::Infeasible(format!(
-                    "target periapsis radius {} m cannot be reached from burnout radius {} m at flight-path angle {} deg: expected below r cos(fpa) = {} m",
-                    g(x),
-                    g(r),
-                    gdeg,
-                    g(r * c)
-                )));
-            }
-            let v2 = 2.0 * mu * x * (x - r) / (r * d_minus * (x + r * c));
-            vec![v2.sqrt()]
-        }
-        Q::Sma | Q::Period | Q::C3 | Q::SpecificEnergy => {
-            let inv_a = match target.quantity {
-                Q::Sma => 1.0 / x,
-                Q::Period => {
-                    let n = 2.0 * PI / x;
-                    (n * n / mu).cbrt()
-                }
-                Q::C3 => -x / mu,
-                _ => -2.0 * x / mu,
-            };
-            let v2 = mu * (2.0 / r - inv_a);
-            if v2 <= 0.0 {
-                return Err(Error::Infeasible(format!(
-                    "{} {} {} needs a semi-major axis of {} m, which an orbit through burnout radius {} m cannot have (expected a > r/2 = {} m or a negative, open orbit)",
-                    target.mention(),
-                    g(x),
-                    target.quantity.unit(),
-                    g(1.0 / inv_a),
-                    g(r),
-                    g(r / 2.0)
-                )));
-            }
-            vec![v2.sqrt()]
-        }
-        Q::Ecc => {
-            let sa = s.abs();
-            if c == 0.0 {
-                return Err(Error::Infeasible(format!(
-                    "flight-path angle {gdeg} deg is vertical: a radial trajectory has no eccentricity to target"
-                )));
-            }
-            if x < sa {
-                return Err(Error::Infeasible(format!(
-                    "eccentricity {} is below |sin(fpa)| = {} at flight-path angle {} deg: no orbit has it there",
-                    g(x),
-                    g(sa),
-                    gdeg
-                )));
-            }
-            // e - |sin g| near a steep angle: (e - 1) + (1 - sin|g|) with
-            // 1 - sin|g| = 2 sin^2(pi/4 - |g|/2), so a near-radial angle on a
-            // near-parabolic target keeps its digits.
-            let x_minus_sa = if sa > 0.5 {
-                let h = (std::f64::consts::FRAC_PI_4 - 0.5 * gamma.abs()).sin();
-                (x - 1.0) + 2.0 * h * h
-            } else {
-                x - sa
-            };
-            let d = (x_minus_sa.max(0.0) * (x + sa)).sqrt() / c;
-            let mut qs = vec![1.0 + d];
-            let qm = 1.0 - d;
-            // The minus root is physical only for an ellipse (e < 1): for
-            // e >= 1 it is zero or negative, whatever rounding says.
-            if x < 1.0 && qm > 0.0 && d > 0.0 {
-                qs.insert(0, qm);
-            }
-            if crate::physics::orbit::exactly(x, 1.0) {
-                // A parabola: exactly escape speed.
-                qs = vec![2.0];
-            }
-            qs.into_iter().map(|q| (q * mu / r).sqrt()).collect()
-        }
-        Q::SemiLatusRectum => {
-            if c == 0.0 {
-                return Err(Error::Infeasible(format!(
-                    "flight-path angle {gdeg} deg is vertical: a radial trajectory has zero semi-latus rectum"
-                )));
-            }
-            let q = x / (r * c * c);
-            vec![(q * mu / r).sqrt()]
-        }
+        Q::PeriapsisRadius | Q::ApoapsisRadius => speeds_for_apsis(mu, r, gamma, target)?,
+        Q::Sma | Q::Period | Q::C3 | Q::SpecificEnergy => speeds_for_energy(mu, r, target)?,
+        Q::Ecc => speeds_for_ecc(mu, r, gamma, x)?,
+        Q::SemiLatusRectum => speeds_for_semi_latus_rectum(mu, r, gamma, x)?,
         Q::TimeToApoapsis | Q::TimeToPeriapsis | Q::AngleToApoapsis => {
             return Err(Error::Usage(format!(
                 "{} has no closed-form inversion",
@@ -354,25 +251,157 @@ pub fn speed_for_target(
             )));
         }
         let mut st = forward_state(mu, r, v, gamma)?;
-        // Keep the targeted apsis exact where the target named it.
-        st.conic = match (target.quantity, st.conic.apoapsis_radius_m()) {
-            (Q::ApoapsisRadius, Some(_)) => {
-                Conic::from_apsides(st.conic.periapsis_radius_m().min(x), x).unwrap_or(st.conic)
-            }
-            (Q::PeriapsisRadius, Some(ra)) => Conic::from_apsides(x, ra.max(x)).unwrap_or(st.conic),
-            (Q::PeriapsisRadius, None) => st.conic.with_periapsis(x),
-            (Q::Ecc, _) if crate::physics::orbit::exactly(x, 1.0) => {
-                Conic::from_periapsis_ecc(st.conic.periapsis_radius_m(), 1.0).unwrap_or(st.conic)
-            }
-            (Q::Ecc, _) => st.conic.with_ecc(x),
-            (Q::Sma, None) => st.conic.with_open_inv_sma(1.0 / x),
-            (Q::C3, None) => st.conic.with_open_inv_sma(-x / mu),
-            (Q::SpecificEnergy, None) => st.conic.with_open_inv_sma(-2.0 * x / mu),
-            _ => st.conic,
-        };
+        st.conic = exact_target_conic(mu, &st.conic, target);
         out.push(st);
     }
     Ok(out)
+}
+
+/// Apsis target R: v^2 = 2 mu R (R - r) / (r (R - r cos g)(R + r cos g)).
+fn speeds_for_apsis(mu: f64, r: f64, gamma: f64, target: &Target) -> Result<Vec<f64>, Error> {
+    use TargetQuantity as Q;
+    let x = target.value;
+    let c = gamma.cos().max(0.0);
+    let gdeg = g(gamma.to_degrees());
+    let is_apo = target.quantity == Q::ApoapsisRadius;
+    let same = (x - r).abs() <= APSIS_TOLERANCE * r;
+    if same && gamma == 0.0 {
+        let vc = (mu / r).sqrt();
+        return Err(Error::Usage(format!(
+                "{} {} m equals the burnout radius with a horizontal flight-path angle: every speed {} circular speed {} m/s reaches it; give a second target quantity",
+                target.mention(),
+                g(x),
+                if is_apo { "up to" } else { "from" },
+                g(vc)
+            )));
+    }
+    if is_apo && x <= r {
+        return Err(Error::Infeasible(format!(
+            "target apoapsis radius {} m is not above the burnout radius {} m",
+            g(x),
+            g(r)
+        )));
+    }
+    let half = (0.5 * gamma).sin();
+    let d_minus = (x - r) + 2.0 * r * half * half; // R - r cos g
+    if !is_apo && (x >= r || d_minus >= 0.0) {
+        return Err(Error::Infeasible(format!(
+                "target periapsis radius {} m cannot be reached from burnout radius {} m at flight-path angle {} deg: expected below r cos(fpa) = {} m",
+                g(x),
+                g(r),
+                gdeg,
+                g(r * c)
+            )));
+    }
+    let v2 = 2.0 * mu * x * (x - r) / (r * d_minus * (x + r * c));
+    Ok(vec![v2.sqrt()])
+}
+
+/// Energy targets (sma, period, C3, specific energy): vis-viva.
+fn speeds_for_energy(mu: f64, r: f64, target: &Target) -> Result<Vec<f64>, Error> {
+    use TargetQuantity as Q;
+    let x = target.value;
+    let inv_a = match target.quantity {
+        Q::Sma => 1.0 / x,
+        Q::Period => {
+            let n = 2.0 * PI / x;
+            (n * n / mu).cbrt()
+        }
+        Q::C3 => -x / mu,
+        _ => -2.0 * x / mu,
+    };
+    let v2 = mu * (2.0 / r - inv_a);
+    if v2 <= 0.0 {
+        return Err(Error::Infeasible(format!(
+                "{} {} {} needs a semi-major axis of {} m, which an orbit through burnout radius {} m cannot have (expected a > r/2 = {} m or a negative, open orbit)",
+                target.mention(),
+                g(x),
+                target.quantity.unit(),
+                g(1.0 / inv_a),
+                g(r),
+                g(r / 2.0)
+            )));
+    }
+    Ok(vec![v2.sqrt()])
+}
+
+/// Eccentricity e at angle g: Q = 1 +- sqrt((e - sin|g|)(e + sin|g|)) / cos g.
+fn speeds_for_ecc(mu: f64, r: f64, gamma: f64, x: f64) -> Result<Vec<f64>, Error> {
+    let (s, c) = gamma.sin_cos();
+    let c = c.max(0.0);
+    let gdeg = g(gamma.to_degrees());
+    let sa = s.abs();
+    if c == 0.0 {
+        return Err(Error::Infeasible(format!(
+                "flight-path angle {gdeg} deg is vertical: a radial trajectory has no eccentricity to target"
+            )));
+    }
+    if x < sa {
+        return Err(Error::Infeasible(format!(
+                "eccentricity {} is below |sin(fpa)| = {} at flight-path angle {} deg: no orbit has it there",
+                g(x),
+                g(sa),
+                gdeg
+            )));
+    }
+    // e - |sin g| near a steep angle: (e - 1) + (1 - sin|g|) with
+    // 1 - sin|g| = 2 sin^2(pi/4 - |g|/2), so a near-radial angle on a
+    // near-parabolic target keeps its digits.
+    let x_minus_sa = if sa > 0.5 {
+        let h = (std::f64::consts::FRAC_PI_4 - 0.5 * gamma.abs()).sin();
+        (x - 1.0) + 2.0 * h * h
+    } else {
+        x - sa
+    };
+    let d = (x_minus_sa.max(0.0) * (x + sa)).sqrt() / c;
+    let mut qs = vec![1.0 + d];
+    let qm = 1.0 - d;
+    // The minus root is physical only for an ellipse (e < 1): for
+    // e >= 1 it is zero or negative, whatever rounding says.
+    if x < 1.0 && qm > 0.0 && d > 0.0 {
+        qs.insert(0, qm);
+    }
+    if crate::physics::orbit::exactly(x, 1.0) {
+        // A parabola: exactly escape speed.
+        qs = vec![2.0];
+    }
+    Ok(qs.into_iter().map(|q| (q * mu / r).sqrt()).collect())
+}
+
+/// Semi-latus rectum p at angle g: Q = p / (r cos^2 g).
+fn speeds_for_semi_latus_rectum(mu: f64, r: f64, gamma: f64, x: f64) -> Result<Vec<f64>, Error> {
+    let c = gamma.cos().max(0.0);
+    let gdeg = g(gamma.to_degrees());
+    if c == 0.0 {
+        return Err(Error::Infeasible(format!(
+                "flight-path angle {gdeg} deg is vertical: a radial trajectory has zero semi-latus rectum"
+            )));
+    }
+    let q = x / (r * c * c);
+    Ok(vec![(q * mu / r).sqrt()])
+}
+
+/// The state's conic with the targeted element put back exactly where the
+/// target named it (an apsis, the eccentricity, an open orbit's 1/a).
+fn exact_target_conic(mu: f64, conic: &Conic, target: &Target) -> Conic {
+    use TargetQuantity as Q;
+    let x = target.value;
+    let st_conic = *conic;
+    match (target.quantity, st_conic.apoapsis_radius_m()) {
+        (Q::ApoapsisRadius, Some(_)) => {
+            Conic::from_apsides(st_conic.periapsis_radius_m().min(x), x).unwrap_or(st_conic)
+        }
+        (Q::PeriapsisRadius, Some(ra)) => Conic::from_apsides(x, ra.max(x)).unwrap_or(st_conic),
+        (Q::PeriapsisRadius, None) => st_conic.with_periapsis(x),
+        (Q::Ecc, _) if crate::physics::orbit::exactly(x, 1.0) => {
+            Conic::from_periapsis_ecc(st_conic.periapsis_radius_m(), 1.0).unwrap_or(st_conic)
+        }
+        (Q::Ecc, _) => st_conic.with_ecc(x),
+        (Q::Sma, None) => st_conic.with_open_inv_sma(1.0 / x),
+        (Q::C3, None) => st_conic.with_open_inv_sma(-x / mu),
+        (Q::SpecificEnergy, None) => st_conic.with_open_inv_sma(-2.0 * x / mu),
+        _ => st_conic,
+    }
 }
 
 /// The flight-path angles (both branches) that reach one shape target at a
