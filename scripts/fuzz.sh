@@ -12,7 +12,7 @@ set -euo pipefail
 cd "$(dirname "$0")/../fuzz"
 SECONDS_EACH="${1:-10}"
 export RUSTC_BOOTSTRAP=1
-for target in units range case_file batch_reader; do
+for target in values case_file batch_reader; do
     mkdir -p "corpus/$target"
     # Run on a scratch copy so new inputs found do not dirty the checkout.
     work="$(mktemp -d)"

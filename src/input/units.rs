@@ -34,6 +34,18 @@ pub enum Kind {
 }
 
 impl Kind {
+    /// Every kind (for exhaustive tests and fuzzing).
+    pub const ALL: [Kind; 8] = [
+        Kind::Length,
+        Kind::Speed,
+        Kind::Angle,
+        Kind::AngleOrLength,
+        Kind::Time,
+        Kind::C3,
+        Kind::Mu,
+        Kind::Ratio,
+    ];
+
     /// Name used in messages.
     pub fn name(self) -> &'static str {
         match self {
