@@ -148,3 +148,20 @@ pub fn elements_from_state(mu_m3_s2: f64, radius_m: f64, speed_m_s: f64, fpa_deg
         true_anomaly_deg: y.atan2(x).to_degrees().rem_euclid(360.0),
     }
 }
+
+/// The values at `ptr` of every solution, ascending.
+pub fn sorted(doc: &Value, ptr: &str) -> Vec<f64> {
+    let mut v: Vec<f64> = solutions(doc).iter().map(|s| num(s, ptr)).collect();
+    v.sort_by(f64::total_cmp);
+    v
+}
+
+/// (value at `a`, value at `b`) of every solution, ascending in the first.
+pub fn sorted_pairs(doc: &Value, a: &str, b: &str) -> Vec<(f64, f64)> {
+    let mut v: Vec<(f64, f64)> = solutions(doc)
+        .iter()
+        .map(|s| (num(s, a), num(s, b)))
+        .collect();
+    v.sort_by(|x, y| x.0.total_cmp(&y.0));
+    v
+}

@@ -3,7 +3,7 @@
 //! (scripts/coast_reference.py) and listed in the numerical-targeting issue.
 #![allow(clippy::excessive_precision)] // reference digits as the reference printed them
 
-use super::{is_null, num, run, solutions, solve_json};
+use super::{is_null, num, run, solutions, solve_json, sorted, sorted_pairs};
 use approx::assert_relative_eq;
 
 const EARTH_MU: f64 = 3.986004418e14; // IERS Conventions (2010), Table 1.1
@@ -24,8 +24,7 @@ fn free_altitude_roots_each_carry_their_own_burnout_radius() {
         (1.0 + d) * EARTH_MU / (v * v),
     ];
     want.sort_by(f64::total_cmp);
-    let mut got: Vec<f64> = sols.iter().map(|s| num(s, "/burnout_radius_m")).collect();
-    got.sort_by(f64::total_cmp);
+    let got = sorted(&doc, "/burnout_radius_m");
     for (g, w) in got.iter().zip(want) {
         assert_relative_eq!(*g, w, max_relative = 1e-12);
     }
@@ -100,11 +99,10 @@ fn near_parabolic_near_radial_coast_roots_are_all_found() {
         "--time-to-periapsis",
         "0.64587670918057900h",
     ]);
-    let mut got: Vec<(f64, f64)> = solutions(&doc)
-        .iter()
-        .map(|s| (num(s, "/speed_m_s"), num(s, "/flight_path_angle_deg")))
+    let got: Vec<(f64, f64)> = sorted_pairs(&doc, "/flight_path_angle_deg", "/speed_m_s")
+        .into_iter()
+        .map(|(g, v)| (v, g))
         .collect();
-    got.sort_by(|a, b| a.1.total_cmp(&b.1));
     let want = [
         (29027.915115561257, -89.992960464568573),
         (45178.912946903939, -62.220993299988853),
@@ -131,11 +129,7 @@ fn near_circular_tiny_angle_close_radius_roots_are_both_found() {
         "--time-to-periapsis",
         "4199.3126060777800s",
     ]);
-    let mut r: Vec<f64> = solutions(&doc)
-        .iter()
-        .map(|s| num(s, "/burnout_radius_m"))
-        .collect();
-    r.sort_by(f64::total_cmp);
+    let r = sorted(&doc, "/burnout_radius_m");
     assert_eq!(r.len(), 2, "{r:?}");
     assert_relative_eq!(r[0], 9143789.9485021245, max_relative = 1e-9);
     assert_relative_eq!(r[1], 9349120.8100025534, max_relative = 1e-9);
@@ -344,11 +338,7 @@ fn near_parabolic_apoapsis_sheet_keeps_its_roots() {
         "--time-to-apoapsis",
         "117079086.43065718d",
     ]);
-    let mut fpa: Vec<f64> = solutions(&doc)
-        .iter()
-        .map(|s| num(s, "/flight_path_angle_deg"))
-        .collect();
-    fpa.sort_by(f64::total_cmp);
+    let fpa = sorted(&doc, "/flight_path_angle_deg");
     assert_eq!(fpa.len(), 2, "{fpa:?}");
     assert_relative_eq!(fpa[0], -58.494732099435155, max_relative = 1e-8);
     assert_relative_eq!(fpa[1], 58.470628120777706, max_relative = 1e-8);
@@ -369,11 +359,7 @@ fn near_parabolic_sma_sheet_keeps_its_roots() {
         "--time-to-periapsis",
         "77477.233729515779h",
     ]);
-    let mut fpa: Vec<f64> = solutions(&doc)
-        .iter()
-        .map(|s| num(s, "/flight_path_angle_deg"))
-        .collect();
-    fpa.sort_by(f64::total_cmp);
+    let fpa = sorted(&doc, "/flight_path_angle_deg");
     assert_eq!(fpa.len(), 2, "{fpa:?}");
     // Conditioned to about 1e-9 here (the reference's own allowance is 5e-6 deg).
     assert_relative_eq!(fpa[0], 43.942453286537752, max_relative = 5e-9);
@@ -450,11 +436,7 @@ fn near_radial_apsis_sheet_finds_both_steep_roots() {
         "--time-to-apoapsis",
         "0.061388866559093397d",
     ]);
-    let mut v: Vec<(f64, f64)> = solutions(&doc)
-        .iter()
-        .map(|s| (num(s, "/flight_path_angle_deg"), num(s, "/speed_m_s")))
-        .collect();
-    v.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let v = sorted_pairs(&doc, "/flight_path_angle_deg", "/speed_m_s");
     assert_eq!(v.len(), 2, "{v:?}");
     assert_relative_eq!(v[0].1, 7115.087025858734, max_relative = 1e-9);
     assert_relative_eq!(v[0].0, -89.990861768798814, max_relative = 1e-9);
