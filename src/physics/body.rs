@@ -172,6 +172,22 @@ impl Body {
         })
     }
 
+    /// A burnout radius checked against the body: finite, positive and not
+    /// below the surface.
+    ///
+    /// # Errors
+    /// [`Error::NotFinite`] / [`Error::NotPositive`]; [`Error::BelowSurface`].
+    pub fn check_burnout_radius(&self, radius_m: f64) -> Result<f64, Error> {
+        let r = positive("burnout radius", radius_m, "m")?;
+        if r < self.radius_m {
+            return Err(Error::BelowSurface {
+                burnout_radius_m: r,
+                surface_radius_m: self.radius_m,
+            });
+        }
+        Ok(r)
+    }
+
     /// A user-defined body.
     ///
     /// # Errors

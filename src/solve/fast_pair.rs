@@ -12,7 +12,7 @@
 //! Feasibility warnings are not built; [`LeanSolved::suborbital`] says
 //! whether the periapsis is under the surface.
 
-use crate::error::{positive, Error};
+use crate::error::Error;
 use crate::physics::body::Body;
 use crate::physics::state::BurnoutState;
 use crate::solve::invert::pair_states;
@@ -52,13 +52,7 @@ pub fn solve_pair(
     b: &Target,
     burnout_radius_m: f64,
 ) -> Result<LeanSolved, Error> {
-    let r = positive("burnout radius", burnout_radius_m, "m")?;
-    if r < body.radius_m {
-        return Err(Error::BelowSurface {
-            burnout_radius_m: r,
-            surface_radius_m: body.radius_m,
-        });
-    }
+    let r = body.check_burnout_radius(burnout_radius_m)?;
     let mu = body.mu_m3_s2;
     let conic = conic_from_pair(mu, a, b)?;
     let (states, len) = pair_states(mu, &conic, r)?;

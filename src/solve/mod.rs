@@ -74,13 +74,7 @@ pub(crate) fn solve_planar(problem: &Problem) -> Result<Solved, Error> {
         }
         return numeric::solve_numeric(problem);
     };
-    let r = positive("burnout radius", r, "m")?;
-    if r < body.radius_m {
-        return Err(Error::BelowSurface {
-            burnout_radius_m: r,
-            surface_radius_m: body.radius_m,
-        });
-    }
+    let r = body.check_burnout_radius(r)?;
     let elements: Vec<&Target> = problem
         .targets
         .iter()
