@@ -75,13 +75,31 @@ impl FloatMemo {
         }
         let entry = &mut self.slots[slot];
         let bits = x.to_bits();
-        if entry.1 == 0 || entry.0 != bits {
+        const SIGN: u64 = 1 << 63;
+        if entry.1 != 0 && entry.0 == bits ^ SIGN {
+            // The same magnitude with the other sign (a mirrored branch's
+            // angle and angle partials): the text gains or loses its '-'.
+            let (n, text) = (entry.1 as usize, entry.2);
+            if bits & SIGN != 0 {
+                entry.2[0] = b'-';
+                entry.2[1..=n].copy_from_slice(&text[..n]);
+                entry.1 = (n + 1) as u8;
+            } else {
+                entry.2[..n - 1].copy_from_slice(&text[1..n]);
+                entry.1 = (n - 1) as u8;
+            }
+            entry.0 = bits;
+        } else if entry.1 == 0 || entry.0 != bits {
             // At most MAX_LEN (24) bytes: the slot holds any f64's text.
             let n = super::float::format_into(&mut entry.2, x);
             entry.1 = n as u8;
             entry.0 = bits;
         }
-        buf.extend_from_slice(&entry.2[..entry.1 as usize]);
+        // A fixed-size copy then a cut: the compiler inlines a 24-byte move,
+        // where a copy of the exact length would call memmove per number.
+        let len = buf.len();
+        buf.extend_from_slice(&entry.2);
+        buf.truncate(len + entry.1 as usize);
     }
 }
 
@@ -362,6 +380,32 @@ mod tests {
         );
         assert!(BranchChoice::Ascending.keeps(Branch::Ascending));
         assert!(!BranchChoice::Ascending.keeps(Branch::Descending));
+    }
+
+    #[test]
+    fn memo_gives_the_formatter_s_text_for_repeats_and_sign_flips() {
+        let mut memo = FloatMemo::new();
+        // Values and their mirror images in one slot, the longest text
+        // (24 bytes with its sign) included; each must read as push_float.
+        let xs = [
+            2.5147886911818866,
+            -2.5147886911818866,
+            -2.5147886911818866,
+            2.5147886911818866,
+            -2.2250738585072014e-308,
+            2.2250738585072014e-308,
+            -2.2250738585072014e-308,
+            0.0,
+            -0.0,
+            1e16,
+            -1e16,
+        ];
+        for x in xs {
+            let (mut got, mut want) = (Vec::new(), Vec::new());
+            memo.push(&mut got, 3, x);
+            push_float(&mut want, x);
+            assert_eq!(got, want, "{x:e}");
+        }
     }
 
     #[test]

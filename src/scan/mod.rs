@@ -243,8 +243,9 @@ impl Plan {
         sink: &S,
         range: std::ops::Range<usize>,
         pick: Option<&PlotPick>,
+        mut bytes: Vec<u8>,
     ) -> ChunkOut {
-        let mut bytes = Vec::with_capacity(range.len() * 400);
+        bytes.clear();
         let mut stats = Stats::default();
         let mut samples = Vec::new();
         let mut scratch = self.scratch();
@@ -368,28 +369,43 @@ impl Plan {
         let total = self.total;
         let block = CHUNK * CHUNKS_PER_BLOCK;
         if !opts.parallel || total < PARALLEL_MIN_POINTS {
+            let mut spare = Vec::new();
             let mut start = 0;
             while start < total {
                 let end = (start + CHUNK).min(total);
-                let c = self.run_chunk(opts, sink, start..end, pick.as_ref());
+                let c = self.run_chunk(opts, sink, start..end, pick.as_ref(), spare);
                 stats.merge(&c.stats);
                 samples.extend(c.samples);
                 sink_out.write_chunk(&c.bytes)?;
+                spare = c.bytes;
                 progress(end as u64);
                 start = end;
             }
         } else {
+            // Written chunks' buffers come back for reuse: fresh pages for
+            // every chunk would cost a page fault per 4 KiB written.
+            let pool: std::sync::Mutex<Vec<Vec<u8>>> = std::sync::Mutex::new(Vec::new());
             std::thread::scope(|scope| -> std::io::Result<()> {
                 let (tx, rx) = std::sync::mpsc::sync_channel::<Vec<Vec<u8>>>(2);
+                let pool_ref = &pool;
                 let sink_ref = &mut sink_out;
                 let writer = scope.spawn(move || -> std::io::Result<()> {
                     for blocks in rx {
                         for b in blocks {
                             sink_ref.write_chunk(&b)?;
+                            if let Ok(mut p) = pool_ref.lock() {
+                                p.push(b);
+                            }
                         }
                     }
                     Ok(())
                 });
+                let take = || {
+                    pool.lock()
+                        .ok()
+                        .and_then(|mut p| p.pop())
+                        .unwrap_or_default()
+                };
                 let mut start = 0;
                 while start < total {
                     let end = (start + block).min(total);
@@ -397,7 +413,10 @@ impl Plan {
                         .step_by(CHUNK)
                         .collect::<Vec<_>>()
                         .into_par_iter()
-                        .map(|s| self.run_chunk(opts, sink, s..(s + CHUNK).min(end), pick.as_ref()))
+                        .map(|s| {
+                            let range = s..(s + CHUNK).min(end);
+                            self.run_chunk(opts, sink, range, pick.as_ref(), take())
+                        })
                         .collect();
                     let mut bytes = Vec::with_capacity(chunks.len());
                     for c in chunks {
