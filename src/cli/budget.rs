@@ -59,6 +59,8 @@ pub fn run(args: Args) -> Result<i32, Error> {
         }
         reports.push(BudgetReport {
             solution: s,
+            tolerances: tolerances.as_ref(),
+            warnings: implausible_sigmas(&inputs, s.state.speed_m_s),
             mapped: errors
                 .as_ref()
                 .map(|e| map_errors(mu, &s.state, e))
@@ -131,4 +133,64 @@ fn check_budget_magnitudes(inputs: &Inputs) -> Result<(), Error> {
         }
     }
     Ok(())
+}
+
+/// Warnings for 1-sigma errors implausible against the nominal, naming the
+/// unit the value was read in: a bare `--speed-sigma 2` is 2 km/s. Limits
+/// (common practice for burnout dispersions, generous on purpose): speed
+/// sigma above 2 % of the burnout speed, flight-path angle sigma above
+/// 2 deg, altitude sigma above 50 km.
+fn implausible_sigmas(inputs: &Inputs, speed_m_s: f64) -> Vec<String> {
+    let mut out = Vec::new();
+    let read = |key: &str| -> Option<(String, f64)> {
+        let text = inputs.get(key)?;
+        let kind = burnout::input::problem::kind_of(key)?;
+        let v = burnout::input::units::parse(&format!("--{key}"), text, kind).ok()?;
+        Some((text.trim().to_string(), v.si))
+    };
+    let bare = |text: &str| !text.chars().any(|c| c.is_ascii_alphabetic());
+    if let Some((text, v)) = read("speed-sigma") {
+        if v > 0.02 * speed_m_s {
+            out.push(format!(
+                "--speed-sigma '{text}' was read as {} m/s{}, {:.0}% of the burnout speed {} m/s: write the unit (e.g. '{text}m/s') if that is not meant",
+                sig(v),
+                if bare(&text) { " (a bare number is km/s)" } else { "" },
+                100.0 * v / speed_m_s,
+                sig(speed_m_s)
+            ));
+        }
+    }
+    if let Some((text, v)) = read("fpa-sigma") {
+        if v > 2f64.to_radians() {
+            out.push(format!(
+                "--fpa-sigma '{text}' was read as {} deg{}: an unusually large 1-sigma angle error",
+                sig(v.to_degrees()),
+                if bare(&text) {
+                    " (a bare number is deg)"
+                } else {
+                    ""
+                }
+            ));
+        }
+    }
+    if let Some((text, v)) = read("alt-sigma") {
+        if v > 50e3 {
+            out.push(format!(
+                "--alt-sigma '{text}' was read as {} km{}: an unusually large 1-sigma altitude error",
+                sig(v / 1e3),
+                if bare(&text) { " (a bare number is km)" } else { "" }
+            ));
+        }
+    }
+    out
+}
+
+/// Five significant digits.
+fn sig(x: f64) -> String {
+    let a = x.abs();
+    if a == 0.0 || !(1e-3..1e7).contains(&a) {
+        return format!("{x:e}");
+    }
+    let decimals = (4 - a.log10().floor() as i32).max(0) as usize;
+    format!("{x:.decimals$}")
 }

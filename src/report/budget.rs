@@ -1,7 +1,6 @@
 //! Error-budget reports: human table and JSON.
 
-use crate::error::g;
-use crate::solve::budget::{Allowed, RowError};
+use crate::solve::budget::{Allowed, RowError, Tolerances};
 use crate::solve::problem::Solution;
 use serde::Serialize;
 use std::io::Write;
@@ -14,6 +13,36 @@ pub struct BudgetReport<'a> {
     pub mapped: Option<Vec<RowError>>,
     /// Allowed errors, if tolerances were given.
     pub allowed: Option<Allowed>,
+    /// The orbit tolerances given (to say whether the dispersion fits).
+    pub tolerances: Option<&'a Tolerances>,
+    /// Warnings about the inputs (e.g. a sigma implausible for its unit).
+    pub warnings: Vec<String>,
+}
+
+/// The tolerance on a row quantity, if one was given.
+fn tolerance_of(tol: Option<&Tolerances>, quantity: &str) -> Option<f64> {
+    let i = crate::solve::sensitivity::ROWS
+        .iter()
+        .position(|q| *q == quantity)?;
+    tol.and_then(|t| t.rows[i])
+}
+
+/// Five significant digits for people (fixed-point where readable).
+fn sig5(x: f64) -> String {
+    if x == 0.0 || !x.is_finite() {
+        return if x.is_finite() {
+            "0".into()
+        } else {
+            format!("{x}")
+        };
+    }
+    let a = x.abs();
+    if (1e-3..1e7).contains(&a) {
+        let decimals = (4 - a.log10().floor() as i32).max(0) as usize;
+        format!("{x:.decimals$}")
+    } else {
+        format!("{x:.4e}")
+    }
 }
 
 #[derive(Serialize)]
@@ -22,6 +51,12 @@ struct RowJson {
     three_sigma: f64,
     dominant: &'static str,
     dominant_share: f64,
+    exact_mean_shift: Option<f64>,
+    exact_one_sigma: Option<f64>,
+    linear_misleads: bool,
+    three_sigma_reach: f64,
+    tolerance: Option<f64>,
+    fits: Option<bool>,
 }
 
 #[derive(Serialize)]
@@ -53,6 +88,7 @@ struct EntryJson {
     flight_path_angle_deg: f64,
     burnout_radius_m: f64,
     orbit_errors: Option<serde_json::Map<String, serde_json::Value>>,
+    warnings: Vec<String>,
     allowed_alone: Option<serde_json::Map<String, serde_json::Value>>,
     allowed_joint: Option<EllipsoidJson>,
 }
@@ -85,16 +121,26 @@ pub fn write_json(out: &mut impl Write, reports: &[BudgetReport]) -> std::io::Re
                 speed_m_s: st.speed_m_s,
                 flight_path_angle_deg: st.flight_path_angle_rad.to_degrees(),
                 burnout_radius_m: st.radius_m,
+                warnings: r.warnings.clone(),
                 orbit_errors: r.mapped.as_ref().map(|rows| {
                     rows.iter()
                         .map(|row| {
                             (
                                 row.quantity.to_string(),
-                                serde_json::to_value(RowJson {
-                                    one_sigma: row.one_sigma,
-                                    three_sigma: row.three_sigma,
-                                    dominant: row.dominant,
-                                    dominant_share: row.dominant_share,
+                                serde_json::to_value({
+                                    let tol = tolerance_of(r.tolerances, row.quantity);
+                                    RowJson {
+                                        one_sigma: row.one_sigma,
+                                        three_sigma: row.three_sigma,
+                                        dominant: row.dominant,
+                                        dominant_share: row.dominant_share,
+                                        exact_mean_shift: finite(row.exact_mean_shift),
+                                        exact_one_sigma: finite(row.exact_one_sigma),
+                                        linear_misleads: row.linear_misleads(),
+                                        three_sigma_reach: row.three_sigma_reach(),
+                                        tolerance: tol,
+                                        fits: tol.map(|t| row.three_sigma_reach() <= t),
+                                    }
                                 })
                                 .unwrap_or_default(),
                             )
@@ -180,9 +226,9 @@ fn component_value(k: usize, x: f64) -> String {
         return "unlimited".into();
     }
     match k {
-        0 => format!("{} m/s", g(x)),
-        1 => format!("{} deg", g(x.to_degrees())),
-        _ => format!("{} m", g(x)),
+        0 => format!("{} m/s", sig5(x)),
+        1 => format!("{} deg", sig5(x.to_degrees())),
+        _ => format!("{} m", sig5(x)),
     }
 }
 
@@ -195,34 +241,81 @@ pub fn write_table(out: &mut impl Write, reports: &[BudgetReport]) -> std::io::R
         let st = &r.solution.state;
         writeln!(
             out,
-            "error budget, {} branch: burnout speed {} m/s, flight-path angle {} deg, radius {} m",
+            "error budget, {} branch: burnout speed {:.3} m/s, flight-path angle {:.4} deg, radius {:.1} m",
             st.branch.name(),
-            g(st.speed_m_s),
-            g(st.flight_path_angle_rad.to_degrees()),
-            g(st.radius_m)
+            st.speed_m_s,
+            st.flight_path_angle_rad.to_degrees(),
+            st.radius_m
         )?;
+        for w in &r.warnings {
+            writeln!(out, "  warning: {w}")?;
+        }
         if let Some(rows) = &r.mapped {
             writeln!(out)?;
             writeln!(
                 out,
-                "  orbit errors from the burnout errors (linear, J P J^T):"
+                "  orbit errors from the burnout errors: linear (J P J^T) and through the exact forward map (Gauss-Hermite):"
             )?;
             writeln!(
                 out,
-                "  {:<16} {:>14} {:>14}   dominant burnout error",
-                "quantity", "1-sigma", "3-sigma"
+                "  {:<16} {:>12} {:>12} {:>12} {:>12}   dominant burnout error",
+                "quantity", "1-sigma", "3-sigma", "exact 1-sig", "exact mean"
             )?;
             for row in rows {
                 let k = row_scale(row.quantity);
                 writeln!(
                     out,
-                    "  {:<16} {:>14} {:>14}   {} ({:.0}% of variance alone)",
+                    "  {:<16} {:>12} {:>12} {:>12} {:>12}   {} ({:.0}% of the total variance alone)",
                     row_label(row.quantity, "km"),
-                    g(row.one_sigma * k),
-                    g(row.three_sigma * k),
+                    sig5(row.one_sigma * k),
+                    sig5(row.three_sigma * k),
+                    sig5(row.exact_one_sigma * k),
+                    sig5(row.exact_mean_shift * k),
                     component_label(row.dominant),
                     100.0 * row.dominant_share
                 )?;
+            }
+            for row in rows.iter().filter(|row| row.linear_misleads()) {
+                let k = row_scale(row.quantity);
+                let unit = if row.quantity.ends_with("_m") {
+                    " km"
+                } else {
+                    ""
+                };
+                writeln!(
+                    out,
+                    "  {}: the linear budget misstates it (the map bends within the dispersion, e.g. a near-circular orbit): exact 1-sigma {}{unit}, mean shift {}{unit}",
+                    row_label(row.quantity, "km"),
+                    sig5(row.exact_one_sigma * k),
+                    sig5(row.exact_mean_shift * k)
+                )?;
+            }
+            let checked: Vec<_> = rows
+                .iter()
+                .filter_map(|row| tolerance_of(r.tolerances, row.quantity).map(|t| (row, t)))
+                .collect();
+            if !checked.is_empty() {
+                writeln!(out)?;
+                writeln!(
+                    out,
+                    "  3-sigma dispersion against the tolerances (reach: |exact mean shift| + 3 exact sigmas, or the linear 3 sigmas if larger):"
+                )?;
+                for (row, t) in checked {
+                    let k = row_scale(row.quantity);
+                    let reach = row.three_sigma_reach();
+                    writeln!(
+                        out,
+                        "  {:<16} reach {:>12} vs tolerance +/-{:<12} {}",
+                        row_label(row.quantity, "km"),
+                        sig5(reach * k),
+                        sig5(t * k),
+                        if reach <= t {
+                            format!("fits ({:.0}% of the tolerance)", 100.0 * reach / t)
+                        } else {
+                            format!("DOES NOT FIT ({:.2}x the tolerance)", reach / t)
+                        }
+                    )?;
+                }
             }
         }
         if let Some(a) = &r.allowed {
@@ -241,7 +334,13 @@ pub fn write_table(out: &mut impl Write, reports: &[BudgetReport]) -> std::io::R
                     component_value(k, e.linear),
                     e.limited_by
                         .map(|q| row_label(q, "").replace(" ()", ""))
-                        .unwrap_or_else(|| "none".into())
+                        .unwrap_or_else(|| {
+                            if e.linear.is_finite() || !e.plus.is_finite() {
+                                "none".into()
+                            } else {
+                                "second order only (exact map)".into()
+                            }
+                        })
                 )?;
             }
             writeln!(out)?;
@@ -260,12 +359,12 @@ pub fn write_table(out: &mut impl Write, reports: &[BudgetReport]) -> std::io::R
                     out,
                     "  axis half-length {:>12} (exact limit {:>12}) along (speed m/s {:+.4}, fpa rad {:+.4}, radius m {:+.4})",
                     if ax.half_length.is_finite() {
-                        g(ax.half_length)
+                        sig5(ax.half_length)
                     } else {
                         "unbounded".into()
                     },
                     if ax.exact_limit.is_finite() {
-                        g(ax.exact_limit)
+                        sig5(ax.exact_limit)
                     } else {
                         "none found".into()
                     },

@@ -117,6 +117,54 @@ pub struct SolutionJson {
     /// Eastward speed of the surface at burnout, m/s (with a site; addition).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub rotation_speed_m_s: Option<f64>,
+    /// Exact changes of the orbit for reference burnout errors of either
+    /// sign, from the forward map (addition; see `near_circular`).
+    pub response: ResponseJson,
+    /// Whether the orbit is near-circular, where the apsides move with the
+    /// size of a flight-path angle error, not its sign, and the partials in
+    /// the angle are not a linear coefficient (addition).
+    pub near_circular: bool,
+}
+
+/// Exact changes of the rows (the sensitivity's rows, SI) for burnout
+/// errors of the sizes given, each sign, each error alone.
+#[derive(Debug, Serialize)]
+pub struct ResponseJson {
+    /// Error sizes: `speed_m_s`, `flight_path_angle_deg`, `burnout_radius_m`.
+    pub steps: serde_json::Map<String, serde_json::Value>,
+    /// For +step of each column: `{column: {row: change}}` (null where the
+    /// row does not exist).
+    pub plus: serde_json::Map<String, serde_json::Value>,
+    /// As `plus`, for -step.
+    pub minus: serde_json::Map<String, serde_json::Value>,
+}
+
+fn response_json(mu: f64, s: &Solution) -> (ResponseJson, bool) {
+    use crate::solve::sensitivity::{exact_responses, is_near_circular, REFERENCE_STEPS};
+    let r = exact_responses(mu, &s.state, REFERENCE_STEPS);
+    let table = |d: &[[Option<f64>; 5]; 3]| {
+        let mut m = serde_json::Map::new();
+        for (k, col) in COLS.iter().enumerate() {
+            let mut rows = serde_json::Map::new();
+            for (i, row) in ROWS.iter().enumerate() {
+                rows.insert(row.to_string(), serde_json::json!(d[k][i]));
+            }
+            m.insert(col.to_string(), serde_json::Value::Object(rows));
+        }
+        m
+    };
+    let mut steps = serde_json::Map::new();
+    steps.insert(COLS[0].into(), serde_json::json!(r.steps[0]));
+    steps.insert(COLS[1].into(), serde_json::json!(r.steps[1].to_degrees()));
+    steps.insert(COLS[2].into(), serde_json::json!(r.steps[2]));
+    (
+        ResponseJson {
+            steps,
+            plus: table(&r.plus),
+            minus: table(&r.minus),
+        },
+        is_near_circular(&s.state, &r),
+    )
 }
 
 /// `solver` object.
@@ -178,6 +226,7 @@ pub fn orbit_json(mu: f64, surface_m: f64, s: &Solution) -> OrbitJson {
 
 fn solution_json(mu: f64, surface_m: f64, s: &Solution) -> SolutionJson {
     let st = &s.state;
+    let (response, near_circular) = response_json(mu, s);
     let (sin_g, cos_g) = st.flight_path_angle_rad.sin_cos();
     SolutionJson {
         branch: st.branch.name(),
@@ -207,6 +256,8 @@ fn solution_json(mu: f64, surface_m: f64, s: &Solution) -> SolutionJson {
         residuals: residual_map(&s.residuals),
         launch_azimuth_deg: s.site.map(|x| x.launch_azimuth_rad.to_degrees()),
         rotation_speed_m_s: s.site.map(|x| x.rotation_speed_m_s),
+        response,
+        near_circular,
     }
 }
 

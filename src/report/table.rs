@@ -334,21 +334,29 @@ fn write_orbits(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
 
 /// The change of each orbit quantity per typical burnout error.
 fn write_coefficients(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
+    use crate::solve::sensitivity::{
+        exact_responses, is_near_circular, orbit_rows, REFERENCE_STEPS,
+    };
     let (lu, lf, su, sf, solved, units) = (c.lu, c.lf, c.su, c.sf, c.solved, c.units);
     let (vs_label, vs) = units.speed_step();
     let (alt_label, alt_step) = units.alt_step();
+    let steps = [vs, REFERENCE_STEPS[1], alt_step];
     for s in &solved.solutions {
+        let st = &s.state;
+        let resp = exact_responses(c.mu, st, steps);
+        let nominal = orbit_rows(c.mu, st.radius_m, st.speed_m_s, st.flight_path_angle_rad)
+            .unwrap_or([None; 5]);
         writeln!(out)?;
         writeln!(
             out,
-            "error coefficients ({}, {} {su}): change per burnout error",
-            s.state.branch.name(),
-            fixed(s.state.speed_m_s / sf, 4)
+            "error coefficients ({}, {} {su}): exact change of the orbit for each burnout error alone",
+            st.branch.name(),
+            fixed(st.speed_m_s / sf, 4)
         )?;
         writeln!(
             out,
-            "  {:<16} {:>14} {:>14} {:>14}",
-            "", vs_label, "+0.1 deg fpa", alt_label
+            "  {:<16} {:>14} {:>14} {:>14} {:>14}",
+            "", vs_label, "+0.1 deg fpa", "-0.1 deg fpa", alt_label
         )?;
         let names = [
             format!("periapsis {lu}"),
@@ -357,23 +365,39 @@ fn write_coefficients(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
             "ecc".to_string(),
             "period s".to_string(),
         ];
-        for (i, row) in s.sensitivity.rows.iter().enumerate() {
-            let scale = if i < 3 { 1.0 / lf } else { 1.0 };
-            match row {
-                Some(m) => writeln!(
+        for i in 0..5 {
+            if s.sensitivity.rows[i].is_none() {
+                writeln!(
                     out,
-                    "  {:<16} {:>14} {:>14} {:>14}",
-                    names[i],
-                    sig(m[0] * vs * scale),
-                    sig(m[1] * 0.1 * scale),
-                    sig(m[2] * alt_step * scale)
-                )?,
-                None => writeln!(
-                    out,
-                    "  {:<16} {:>14} {:>14} {:>14}",
-                    names[i], "-", "-", "-"
-                )?,
+                    "  {:<16} {:>14} {:>14} {:>14} {:>14}",
+                    names[i], "-", "-", "-", "-"
+                )?;
+                continue;
             }
+            let scale = if i < 3 { 1.0 / lf } else { 1.0 };
+            // A change within the rounding of the quantity itself is 0.
+            let floor = 8.0 * f64::EPSILON * nominal[i].map_or(0.0, f64::abs);
+            let cell = |d: Option<f64>| match d {
+                Some(d) if d.abs() <= floor => "0".to_string(),
+                Some(d) => sig(d * scale),
+                None => "-".to_string(),
+            };
+            writeln!(
+                out,
+                "  {:<16} {:>14} {:>14} {:>14} {:>14}",
+                names[i],
+                cell(resp.plus[0][i]),
+                cell(resp.plus[1][i]),
+                cell(resp.minus[1][i]),
+                cell(resp.plus[2][i])
+            )?;
+        }
+        if is_near_circular(st, &resp) {
+            writeln!(
+                out,
+                "  near-circular orbit (ecc {}): periapsis and apoapsis move with the size of a flight-path angle error, not its sign; their partials in fpa are not a linear coefficient here, and a linear budget understates them",
+                sig(st.conic.ecc())
+            )?;
         }
     }
     Ok(())

@@ -7,7 +7,7 @@
 //! ecc, period s), as in [`crate::solve::sensitivity`].
 
 use crate::error::{g, mention, Error};
-use crate::physics::state::{forward_state, BurnoutState};
+use crate::physics::state::BurnoutState;
 use crate::solve::sensitivity::{partials_per_rad_for_state, ROWS};
 use argmin::core::{CostFunction, Executor, State, TerminationReason, TerminationStatus};
 use argmin::solver::brent::BrentRoot;
@@ -106,9 +106,119 @@ pub struct RowError {
     /// The burnout error component that contributes most variance (of
     /// [`COMPONENTS`]), and its share of the variance when taken alone.
     pub dominant: &'static str,
-    /// Share (0..1) of the dominant component's own variance contribution
-    /// in the sum of the three components' own contributions.
+    /// The dominant component's own variance contribution as a share of
+    /// the row's total variance (correlations included; can exceed 1 when
+    /// a correlation cancels part of it).
     pub dominant_share: f64,
+    /// Mean of the quantity's change through the exact forward map (not the
+    /// linearisation), SI: the nonlinear bias of the dispersed orbit.
+    pub exact_mean_shift: f64,
+    /// Standard deviation through the exact forward map, SI.
+    pub exact_one_sigma: f64,
+}
+
+impl RowError {
+    /// Whether the linear J P J^T misstates this row: the exact map's
+    /// standard deviation or mean shift differs from the linear picture by
+    /// more than 10 % of the larger sigma (a near-circular orbit, a strongly
+    /// bent map).
+    pub fn linear_misleads(&self) -> bool {
+        let s = self.exact_one_sigma.max(self.one_sigma);
+        s > 0.0
+            && ((self.exact_one_sigma - self.one_sigma).abs() > 0.1 * s
+                || self.exact_mean_shift.abs() > 0.1 * s)
+    }
+
+    /// The 3-sigma reach of the exact dispersion from the nominal: the
+    /// larger of |mean shift| + 3 exact sigmas and the linear 3 sigmas.
+    pub fn three_sigma_reach(&self) -> f64 {
+        (self.exact_mean_shift.abs() + 3.0 * self.exact_one_sigma).max(self.three_sigma)
+    }
+}
+
+/// Points of the quasi-random rule that takes the orbit's statistics
+/// through the exact map (2^16): its error on E|z|, the near-circular kink,
+/// is about 3e-5 relative (a unit test holds it below 1e-3).
+const QMC_POINTS: u32 = 1 << 16;
+
+/// The radical inverse of `i` in base `b` (the Halton sequence's
+/// coordinate; Halton, Numer. Math. 2, 1960).
+fn radical_inverse(mut i: u32, b: u32) -> f64 {
+    let (mut f, mut r) = (1.0, 0.0);
+    while i > 0 {
+        f /= b as f64;
+        r += f * (i % b) as f64;
+        i /= b;
+    }
+    r
+}
+
+/// Three standard normals for quasi-random point `i` (1-based): Halton
+/// coordinates in bases 2, 3, 5 and 7 through the Box-Muller transform
+/// (Box & Muller, Ann. Math. Stat. 29, 1958). Deterministic: the same
+/// inputs give the same budget.
+fn standard_normals(i: u32) -> [f64; 3] {
+    let tau = 2.0 * std::f64::consts::PI;
+    let (u1, u2) = (radical_inverse(i, 2), radical_inverse(i, 3));
+    let (u3, u4) = (radical_inverse(i, 5), radical_inverse(i, 7));
+    let (s1, s2) = ((-2.0 * u1.ln()).sqrt(), (-2.0 * u3.ln()).sqrt());
+    [
+        s1 * (tau * u2).cos(),
+        s1 * (tau * u2).sin(),
+        s2 * (tau * u4).cos(),
+    ]
+}
+
+/// Mean shift and standard deviation of each row through the exact
+/// forward map for burnout errors ~ N(0, P): a quasi-Monte Carlo average
+/// over [`QMC_POINTS`] deterministic normal points (quasi-random rather than
+/// a product rule: the map has a kink at e = 0, where product Gauss rules
+/// converge slowly). `None` for a row some point leaves undefined (an orbit
+/// that opens).
+fn exact_statistics(mu: f64, state: &BurnoutState, p: &Matrix3<f64>) -> [Option<(f64, f64)>; 5] {
+    let rows = |v: f64, g: f64, r: f64| crate::solve::sensitivity::orbit_rows(mu, r, v, g);
+    let Some(nominal) = rows(state.speed_m_s, state.flight_path_angle_rad, state.radius_m) else {
+        return [None; 5];
+    };
+    // x = L z with L L^T = P, from P's eigen decomposition (P may be
+    // singular: a sigma of 0).
+    let eig = SymmetricEigen::new(*p);
+    let mut l = Matrix3::zeros();
+    for k in 0..3 {
+        let lam = eig.eigenvalues[k].max(0.0);
+        let col = eig.eigenvectors.column(k) * lam.sqrt();
+        l.set_column(k, &col);
+    }
+    let mut m1 = [0.0f64; 5];
+    let mut m2 = [0.0f64; 5];
+    let mut defined = [true; 5];
+    let w = 1.0 / QMC_POINTS as f64;
+    for i in 1..=QMC_POINTS {
+        let z = standard_normals(i);
+        let d = l * Vector3::new(z[0], z[1], z[2]);
+        let x = rows(
+            state.speed_m_s + d[0],
+            state.flight_path_angle_rad + d[1],
+            state.radius_m + d[2],
+        );
+        for k in 0..5 {
+            match (x.and_then(|x| x[k]), nominal[k]) {
+                (Some(v), Some(n)) => {
+                    let dv = v - n;
+                    m1[k] += w * dv;
+                    m2[k] += w * dv * dv;
+                }
+                _ => defined[k] = false,
+            }
+        }
+    }
+    let mut out = [None; 5];
+    for i in 0..5 {
+        if defined[i] && nominal[i].is_some() {
+            out[i] = Some((m1[i], (m2[i] - m1[i] * m1[i]).max(0.0).sqrt()));
+        }
+    }
+    out
 }
 
 /// Maps burnout errors through the sensitivity matrix: the 1-sigma and
@@ -129,6 +239,7 @@ pub fn map_errors(
         errors.fpa_sigma_rad,
         errors.radius_sigma_m,
     ];
+    let exact = exact_statistics(mu_m3_s2, state, &p);
     let mut out = Vec::new();
     for (i, row) in per_rad.rows.iter().enumerate() {
         let Some(j) = row else {
@@ -137,7 +248,6 @@ pub fn map_errors(
         let jv = Vector3::new(j[0], j[1], j[2]);
         let var = (jv.transpose() * p * jv)[(0, 0)].max(0.0);
         let own: Vec<f64> = (0..3).map(|k| (j[k] * sig[k]).powi(2)).collect();
-        let total: f64 = own.iter().sum();
         let (k, best) =
             own.iter().enumerate().fold(
                 (0, -1.0),
@@ -148,7 +258,9 @@ pub fn map_errors(
             one_sigma: var.sqrt(),
             three_sigma: 3.0 * var.sqrt(),
             dominant: COMPONENTS[k],
-            dominant_share: if total > 0.0 { best / total } else { 0.0 },
+            dominant_share: if var > 0.0 { best / var } else { 0.0 },
+            exact_mean_shift: exact[i].map_or(f64::NAN, |e| e.0),
+            exact_one_sigma: exact[i].map_or(f64::NAN, |e| e.1),
         });
     }
     Ok(out)
@@ -218,15 +330,7 @@ pub struct Allowed {
 
 /// Orbit values (rows) from a burnout state, for the nonlinear checks.
 fn row_values(mu: f64, r: f64, v: f64, gamma: f64) -> Option<[Option<f64>; 5]> {
-    let st = forward_state(mu, r, v, gamma).ok()?;
-    let c = st.conic;
-    Some([
-        Some(c.periapsis_radius_m()),
-        c.apoapsis_radius_m(),
-        c.sma_m(),
-        Some(c.ecc()),
-        c.period_s(mu),
-    ])
+    crate::solve::sensitivity::orbit_rows(mu, r, v, gamma)
 }
 
 /// Worst tolerance ratio max_i |row_i(x + d u) - row_i(x)| / tol_i minus 1,
@@ -396,11 +500,22 @@ pub fn allowed_errors(
                 direction,
             }
         };
+        // Where the first-order map leaves this error free (an angle error
+        // at a circular target), the exact map still breaks a tolerance at
+        // a finite size: search it from a tiny step, never call it unlimited
+        // unless the map itself never gets there.
+        let edge = |sign: f64| {
+            if linear.is_finite() {
+                exact_edge(&mk(sign), linear, limits[k])
+            } else {
+                exact_edge_from(&mk(sign), 1e-9 * limits[k], limits[k])
+            }
+        };
         alone.push(AllowedError {
             component: COMPONENTS[k],
             linear,
-            minus: exact_edge(&mk(-1.0), linear, limits[k]),
-            plus: exact_edge(&mk(1.0), linear, limits[k]),
+            minus: edge(-1.0),
+            plus: edge(1.0),
             limited_by,
         });
     }
@@ -482,6 +597,78 @@ pub fn allowed_errors(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn quasi_random_normals_have_the_normal_moments_and_the_kink() {
+        let n = QMC_POINTS;
+        let mut sums = [0.0f64; 4];
+        for i in 1..=n {
+            for z in standard_normals(i) {
+                sums[0] += z;
+                sums[1] += z * z;
+                sums[2] += z.abs();
+                sums[3] += z.powi(4);
+            }
+        }
+        let m = |s: f64| s / (3.0 * n as f64);
+        // Standard normal: E z = 0, E z^2 = 1, E|z| = sqrt(2/pi), E z^4 = 3.
+        assert!(m(sums[0]).abs() < 1e-3);
+        assert!((m(sums[1]) - 1.0).abs() < 1e-3);
+        let want = (2.0 / std::f64::consts::PI).sqrt();
+        assert!((m(sums[2]) / want - 1.0).abs() < 1e-3, "{}", m(sums[2]));
+        assert!((m(sums[3]) - 3.0).abs() < 2e-2);
+    }
+
+    #[test]
+    fn circular_orbit_periapsis_statistics_follow_the_folded_normal() {
+        // Only a flight-path angle error sigma: at circular speed
+        // rp = r (1 - |sin g|) (e = |sin g| from e^2 = 1 - Q(2-Q)cos^2 g, Q = 1),
+        // so the periapsis change is -r|sin g|: a folded normal with mean
+        // -r sigma sqrt(2/pi) and sd r sigma sqrt(1 - 2/pi) (small sigma).
+        let mu = crate::physics::body::EARTH_MU_M3_S2;
+        let r = 6_878_137.0;
+        let v = (mu / r).sqrt();
+        let st = crate::physics::state::forward_state(mu, r, v, 0.0).unwrap();
+        let sigma = 0.05f64.to_radians();
+        let errors = BurnoutErrors {
+            fpa_sigma_rad: sigma,
+            ..BurnoutErrors::default()
+        };
+        let rows = map_errors(mu, &st, &errors).unwrap();
+        let rp = &rows[0];
+        let pi = std::f64::consts::PI;
+        assert!(
+            (rp.exact_mean_shift / (-r * sigma * (2.0 / pi).sqrt()) - 1.0).abs() < 1e-2,
+            "{rp:?}"
+        );
+        assert!(
+            (rp.exact_one_sigma / (r * sigma * (1.0 - 2.0 / pi).sqrt()) - 1.0).abs() < 1e-2,
+            "{rp:?}"
+        );
+        assert!(
+            rp.one_sigma < 1e-6 * rp.exact_one_sigma,
+            "the linear map sees no periapsis error"
+        );
+        assert!(rp.linear_misleads());
+    }
+
+    #[test]
+    fn circular_orbit_angle_allowance_is_exact_not_unlimited() {
+        // Eccentricity tolerance 0.001 at a circular orbit: e = |sin g|, so
+        // the allowed angle error is asin(0.001) = 0.0572958 deg either way.
+        let mu = crate::physics::body::EARTH_MU_M3_S2;
+        let r = 6_878_137.0;
+        let st = crate::physics::state::forward_state(mu, r, (mu / r).sqrt(), 0.0).unwrap();
+        let tol = Tolerances {
+            rows: [None, None, None, Some(0.001), None],
+        };
+        let a = allowed_errors(mu, &st, &tol).unwrap();
+        let fpa = &a.alone[1];
+        assert!(fpa.linear.is_infinite());
+        for edge in [fpa.plus, fpa.minus] {
+            assert!((edge / 0.001f64.asin() - 1.0).abs() < 1e-9, "{edge}");
+        }
+    }
     use crate::physics::body::Body;
     use crate::physics::orbit::Conic;
     use crate::solve::invert::burnout_for_conic;

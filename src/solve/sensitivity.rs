@@ -12,6 +12,8 @@
 //! - drp = dp/(1+e) - p de/(1+e)^2,  dra = 2 da - drp (from ra = 2a - rp);
 //! - da = (2 a^2 Q / (r v)) dv + (2 a^2 / r^2) dr;  dT = (3 T / (2 a)) da.
 
+use crate::physics::state::BurnoutState;
+
 /// Row labels of the sensitivity matrix (machine keys).
 pub const ROWS: [&str; 5] = [
     "periapsis_radius_m",
@@ -148,6 +150,95 @@ fn rows_of_conic(mut s: Sensitivity, conic: &crate::physics::orbit::Conic) -> Se
         s.rows[2] = None;
     }
     s
+}
+
+/// The rows' values (periapsis radius, apoapsis radius, sma, ecc, period)
+/// of the orbit a burnout state (r m, v m/s, fpa rad) reaches; `None` where
+/// the forward map has no orbit.
+pub fn orbit_rows(mu_m3_s2: f64, r: f64, v: f64, gamma: f64) -> Option<[Option<f64>; 5]> {
+    let st = crate::physics::state::forward_state(mu_m3_s2, r, v, gamma).ok()?;
+    let c = st.conic;
+    Some([
+        Some(c.periapsis_radius_m()),
+        c.apoapsis_radius_m(),
+        c.sma_m(),
+        Some(c.ecc()),
+        c.period_s(mu_m3_s2),
+    ])
+}
+
+/// The burnout errors the human table's coefficients use: +-1 m/s of speed,
+/// +-0.1 deg of flight-path angle, +-1 km of altitude (common practice for
+/// a first look at an upper stage's dispersions).
+pub const REFERENCE_STEPS: [f64; 3] = [1.0, 0.1 * std::f64::consts::PI / 180.0, 1000.0];
+
+/// Exact changes of the rows for a burnout error of each reference size,
+/// either sign, from the forward map (not the linearisation): where the map
+/// bends within the step (a near-circular orbit, burnout near an apsis) the
+/// two signs differ from the partials' prediction.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Responses {
+    /// Error sizes in the order speed (m/s), flight-path angle (rad),
+    /// burnout radius (m).
+    pub steps: [f64; 3],
+    /// `plus[k][i]`: change of row i for +steps\[k\] (SI; `None` where the
+    /// row does not exist before or after).
+    pub plus: [[Option<f64>; 5]; 3],
+    /// As `plus`, for -steps\[k\].
+    pub minus: [[Option<f64>; 5]; 3],
+}
+
+/// [`Responses`] of a state for `steps` (speed m/s, fpa rad, radius m).
+pub fn exact_responses(mu_m3_s2: f64, state: &BurnoutState, steps: [f64; 3]) -> Responses {
+    let base = [state.speed_m_s, state.flight_path_angle_rad, state.radius_m];
+    let nominal = orbit_rows(
+        mu_m3_s2,
+        state.radius_m,
+        state.speed_m_s,
+        state.flight_path_angle_rad,
+    )
+    .unwrap_or([None; 5]);
+    let delta = |k: usize, sign: f64| -> [Option<f64>; 5] {
+        let mut x = base;
+        x[k] += sign * steps[k];
+        let Some(rows) = orbit_rows(mu_m3_s2, x[2], x[0], x[1]) else {
+            return [None; 5];
+        };
+        let mut out = [None; 5];
+        for i in 0..5 {
+            out[i] = match (rows[i], nominal[i]) {
+                (Some(a), Some(b)) => Some(a - b),
+                _ => None,
+            };
+        }
+        out
+    };
+    Responses {
+        steps,
+        plus: [delta(0, 1.0), delta(1, 1.0), delta(2, 1.0)],
+        minus: [delta(0, -1.0), delta(1, -1.0), delta(2, -1.0)],
+    }
+}
+
+/// Eccentricity below which a target counts as near-circular for the
+/// response test of [`is_near_circular`].
+pub const NEAR_CIRCULAR_ECC: f64 = 0.01;
+
+/// Whether the orbit is near-circular in the sense that matters for
+/// dispersions: e below [`NEAR_CIRCULAR_ECC`] and the periapsis or
+/// apoapsis responding to the size of a flight-path angle error rather than
+/// its sign (both signs move it the same way by more than the odd part).
+/// There the apsides are not differentiable in the angle at e = 0 (the
+/// change is first order in |d fpa|), and partials and J P J^T understate
+/// them.
+pub fn is_near_circular(state: &BurnoutState, r: &Responses) -> bool {
+    if state.conic.ecc() >= NEAR_CIRCULAR_ECC {
+        return false;
+    }
+    (0..2).any(|i| match (r.plus[1][i], r.minus[1][i]) {
+        (Some(p), Some(m)) => p * m > 0.0 && (p + m).abs() > (p - m).abs(),
+        _ => false,
+    })
 }
 
 #[cfg(test)]

@@ -6,6 +6,7 @@
 //! The contract being checked is the shared machine contract (flags, JSON
 //! keys, exit codes).
 
+mod analyst;
 mod bad_input;
 mod batch;
 mod budget;

@@ -1,0 +1,184 @@
+//! What the analyst reads at the edges (issue 14): circular targets,
+//! budgets against their tolerances.
+
+use crate::{num, run, solutions, solve_json};
+use approx::assert_relative_eq;
+
+const EARTH_RADIUS_M: f64 = 6_378_137.0; // WGS 84 equatorial radius (the catalog's)
+
+/// Regression (issue 14, item 1): at e = 0 a +0.1 deg and a -0.1 deg
+/// flight-path angle error both lower periapsis by r sin(0.1 deg); the
+/// table showed 0. Check value: at circular speed Q = r v^2 / mu = 1, so
+/// e^2 = 1 - Q (2 - Q) cos^2(fpa) = sin^2(fpa) and a = r (vis-viva), hence
+/// rp = r (1 - |sin fpa|), ra = r (1 + |sin fpa|).
+#[test]
+fn circular_target_apsides_move_with_the_size_of_an_fpa_error() {
+    let args = [
+        "--burnout-alt",
+        "500",
+        "--periapsis-alt",
+        "500",
+        "--apoapsis-alt",
+        "500",
+    ];
+    let doc = solve_json(&args);
+    let sol = &solutions(&doc)[0];
+    let r = EARTH_RADIUS_M + 500e3;
+    let d = r * 0.1f64.to_radians().sin();
+    assert_eq!(sol["near_circular"], true);
+    for sign in ["plus", "minus"] {
+        let at = |row: &str| {
+            num(
+                sol,
+                &format!("/response/{sign}/flight_path_angle_deg/{row}"),
+            )
+        };
+        assert_relative_eq!(at("periapsis_radius_m"), -d, max_relative = 1e-9);
+        assert_relative_eq!(at("apoapsis_radius_m"), d, max_relative = 1e-9);
+        assert_relative_eq!(at("ecc"), 0.1f64.to_radians().sin(), max_relative = 1e-9);
+    }
+    let mut cmd = vec!["solve"];
+    cmd.extend(args);
+    let table = run(&cmd);
+    assert_eq!(table.code, Some(0), "{}", table.stderr);
+    let line = table
+        .stdout
+        .lines()
+        .find(|l| l.trim_start().starts_with("periapsis km") && l.contains('-'))
+        .expect("periapsis coefficient line");
+    let cells: Vec<&str> = line.split_whitespace().collect();
+    // periapsis km | +1 m/s | +0.1 deg | -0.1 deg | +1 km
+    let km = format!("{:.3}", -d / 1e3);
+    assert_eq!((cells[3], cells[4]), (km.as_str(), km.as_str()), "{line}");
+    assert!(
+        table.stdout.contains("near-circular orbit"),
+        "{}",
+        table.stdout
+    );
+}
+
+/// An eccentric orbit is not near-circular, and its +-0.1 deg responses
+/// have opposite signs on periapsis (checked against the forward map:
+/// burnout off an apsis, the angle rotates the apse line).
+#[test]
+fn eccentric_target_is_not_flagged_near_circular() {
+    let doc = solve_json(&["--case", &crate::case_path("gto-injection.toml")]);
+    for sol in solutions(&doc) {
+        assert_eq!(sol["near_circular"], false);
+        let p = num(
+            sol,
+            "/response/plus/flight_path_angle_deg/periapsis_radius_m",
+        );
+        let m = num(
+            sol,
+            "/response/minus/flight_path_angle_deg/periapsis_radius_m",
+        );
+        assert!(p * m < 0.0, "{p} {m}");
+    }
+}
+
+/// Regression (issue 14, item 7): the shipped GTO budget's 3-sigma apoapsis
+/// (about 400 km, from J P J^T: 3 x 133 km) is four times the +-100 km
+/// tolerance and the table must say so; the periapsis fits its +-5 km.
+#[test]
+fn budget_says_whether_the_three_sigma_dispersion_fits_each_tolerance() {
+    let r = run(&["budget", "--case", &crate::case_path("gto-budget.toml")]);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    let line = |q: &str| {
+        r.stdout
+            .lines()
+            .find(|l| l.trim_start().starts_with(q) && l.contains("reach"))
+            .unwrap_or_else(|| panic!("no reach line for {q}:\n{}", r.stdout))
+            .to_string()
+    };
+    assert!(
+        line("apoapsis").contains("DOES NOT FIT (4.0"),
+        "{}",
+        line("apoapsis")
+    );
+    assert!(
+        line("periapsis").contains("fits ("),
+        "{}",
+        line("periapsis")
+    );
+    let j = run(&[
+        "budget",
+        "--case",
+        &crate::case_path("gto-budget.toml"),
+        "--format",
+        "json",
+    ]);
+    let doc: serde_json::Value = serde_json::from_str(&j.stdout).unwrap();
+    let apo = &doc["budget"][0]["orbit_errors"]["apoapsis_radius_m"];
+    assert_eq!(apo["fits"], false);
+    assert_eq!(apo["tolerance"], 100_000.0);
+    assert!(apo["three_sigma_reach"].as_f64().unwrap() > 4.0 * 100e3 * 0.99);
+}
+
+/// Regression (issue 14, items 1 and 7): on a circular target the angle
+/// allowance is exact (asin(ecc tol) = 0.0572958 deg for 0.001: e = |sin
+/// fpa| at circular speed), not "unlimited", and the periapsis statistics
+/// through the exact map are those of -r|sin fpa| (a folded normal: mean
+/// -r sigma sqrt(2/pi), sd r sigma sqrt(1 - 2/pi)), not the linear 0.
+#[test]
+fn circular_budget_is_exact_where_the_linear_map_sees_nothing() {
+    let args = [
+        "budget",
+        "--burnout-alt",
+        "500",
+        "--periapsis-alt",
+        "500",
+        "--apoapsis-alt",
+        "500",
+        "--fpa-sigma",
+        "0.05deg",
+        "--ecc-tol",
+        "0.001",
+        "--format",
+        "json",
+    ];
+    let r = run(&args);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    let doc: serde_json::Value = serde_json::from_str(&r.stdout).unwrap();
+    let b = &doc["budget"][0];
+    let fpa = &b["allowed_alone"]["flight_path_angle_deg"];
+    let want = 0.001f64.asin().to_degrees();
+    assert_relative_eq!(num(fpa, "/plus"), want, max_relative = 1e-8);
+    assert_relative_eq!(num(fpa, "/minus"), want, max_relative = 1e-8);
+    let rp = &b["orbit_errors"]["periapsis_radius_m"];
+    let (radius, sigma) = (EARTH_RADIUS_M + 500e3, 0.05f64.to_radians());
+    let pi = std::f64::consts::PI;
+    assert_relative_eq!(
+        num(rp, "/exact_mean_shift"),
+        -radius * sigma * (2.0 / pi).sqrt(),
+        max_relative = 1e-2
+    );
+    assert_relative_eq!(
+        num(rp, "/exact_one_sigma"),
+        radius * sigma * (1.0 - 2.0 / pi).sqrt(),
+        max_relative = 1e-2
+    );
+    assert_eq!(rp["linear_misleads"], true);
+}
+
+/// Regression (issue 14, item 7): a bare `--speed-sigma 2` is 2 km/s; the
+/// budget warns and names the unit it read.
+#[test]
+fn implausible_sigma_is_warned_with_the_unit_read() {
+    let r = run(&[
+        "budget",
+        "--case",
+        &crate::case_path("gto-budget.toml"),
+        "--speed-sigma",
+        "2",
+    ]);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    assert!(
+        r.stdout
+            .contains("--speed-sigma '2' was read as 2000.0 m/s (a bare number is km/s)"),
+        "{}",
+        r.stdout
+    );
+    let quiet = run(&["budget", "--case", &crate::case_path("gto-budget.toml")]);
+    assert!(!quiet.stdout.contains("was read as"), "{}", quiet.stdout);
+}
