@@ -270,6 +270,27 @@ pub fn site_state(
     })
 }
 
+/// Which of the two planes through a site an ascent flies: `northbound`
+/// when the launch azimuth points north of east-west, `southbound` when
+/// south of it, `eastbound` / `westbound` exactly along it (an inclination
+/// equal to the site's latitude). Tells apart the two answers of an
+/// inclination target, which share their branch (the sign of the radial
+/// speed).
+pub fn plane_label(launch_azimuth_rad: f64) -> &'static str {
+    let (s, c) = launch_azimuth_rad.sin_cos();
+    if c.abs() <= 1e-12 {
+        if s > 0.0 {
+            "eastbound"
+        } else {
+            "westbound"
+        }
+    } else if c > 0.0 {
+        "northbound"
+    } else {
+        "southbound"
+    }
+}
+
 #[cfg(test)]
 #[allow(clippy::float_cmp)] // exact symmetric results are asserted on purpose
 mod tests {

@@ -117,6 +117,11 @@ pub struct SolutionJson {
     /// Eastward speed of the surface at burnout, m/s (with a site; addition).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub rotation_speed_m_s: Option<f64>,
+    /// The plane flown from the site: `northbound`, `southbound`,
+    /// `eastbound` or `westbound` (with a site; addition; the branch stays
+    /// the sign of the radial speed).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub plane: Option<&'static str>,
     /// Exact changes of the orbit for reference burnout errors of either
     /// sign, from the forward map (addition; see `near_circular`).
     pub response: ResponseJson,
@@ -256,6 +261,9 @@ fn solution_json(mu: f64, surface_m: f64, s: &Solution) -> SolutionJson {
         residuals: residual_map(&s.residuals),
         launch_azimuth_deg: s.site.map(|x| x.launch_azimuth_rad.to_degrees()),
         rotation_speed_m_s: s.site.map(|x| x.rotation_speed_m_s),
+        plane: s
+            .site
+            .map(|x| crate::physics::site::plane_label(x.launch_azimuth_rad)),
         response,
         near_circular,
     }

@@ -230,7 +230,7 @@ fn write_site(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
         writeln!(out)?;
         writeln!(
             out,
-            "{:<11} {:>11} {:>11} {:>11} {:>11} {:>10} {:>13} {:>9} {:>9}",
+            "{:<22} {:>10} {:>11} {:>11} {:>11} {:>9} {:>13} {:>8} {:>9} {:>12}",
             "from site",
             "launch az",
             "burnout lat",
@@ -239,14 +239,19 @@ fn write_site(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
             "incl deg",
             format!("rel speed {su}"),
             "rel fpa",
-            "rel az"
+            "rel az",
+            format!("surface {su}")
         )?;
         for s in &solved.solutions {
             if let Some(x) = &s.site {
                 writeln!(
                     out,
-                    "{:<11} {:>11} {:>11} {:>11} {:>11} {:>10} {:>13} {:>9} {:>9}",
-                    s.state.branch.name(),
+                    "{:<22} {:>10} {:>11} {:>11} {:>11} {:>9} {:>13} {:>8} {:>9} {:>12}",
+                    format!(
+                        "{} {}",
+                        crate::physics::site::plane_label(x.launch_azimuth_rad),
+                        s.state.branch.name()
+                    ),
                     fixed(x.launch_azimuth_rad.to_degrees(), 4),
                     fixed(x.burnout_latitude_rad.to_degrees(), 4),
                     fixed(x.burnout_longitude_rad.to_degrees(), 4),
@@ -254,14 +259,14 @@ fn write_site(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
                     fixed(x.inclination_rad.to_degrees(), 4),
                     fixed(x.relative_speed_m_s / sf, c.speed_decimals()),
                     fixed(x.relative_flight_path_angle_rad.to_degrees(), 4),
-                    fixed(x.relative_azimuth_rad.to_degrees(), 4)
+                    fixed(x.relative_azimuth_rad.to_degrees(), 4),
+                    fixed(x.rotation_speed_m_s / sf, 4)
                 )?;
             }
         }
         writeln!(
             out,
-            "  angles in deg; burnout latitude is geocentric; the surface moves east at {} {su} at burnout",
-            fixed(solved.solutions.iter().find_map(|s| s.site).map(|x| x.rotation_speed_m_s).unwrap_or(0.0) / sf, 4)
+            "  angles in deg; burnout latitude is geocentric; 'surface' is the eastward speed of the rotating surface at each burnout point"
         )?;
     }
     Ok(())

@@ -181,8 +181,29 @@ pub fn solve_with_site(
         if dup {
             continue;
         }
-        let st = crate::physics::state::forward_state(body.mu_m3_s2, r, v, gamma)?;
-        sites.push(site_state(body, site, az, r, v, gamma)?);
+        // The planar part of a coupled root is one of the planar answers
+        // (the in-plane targets do not depend on the azimuth): take that
+        // state itself, with its exact target conic, rather than the forward
+        // map of the rounded root (whose e ~ 1e-17 on a circular target can
+        // put burnout at apoapsis, true anomaly 180 deg, and flip the
+        // partials' apsides).
+        let planar_twin = planar.solutions.iter().map(|s| s.state).find(|p| {
+            (p.radius_m - r).abs() <= 1e-9 * r
+                && (p.speed_m_s - v).abs() <= 1e-9 * v
+                && (p.flight_path_angle_rad - gamma).abs() <= 1e-9
+        });
+        let st = match planar_twin {
+            Some(p) => p,
+            None => crate::physics::state::forward_state(body.mu_m3_s2, r, v, gamma)?,
+        };
+        sites.push(site_state(
+            body,
+            site,
+            az,
+            st.radius_m,
+            st.speed_m_s,
+            st.flight_path_angle_rad,
+        )?);
         states.push(st);
     }
     let best = good[0];

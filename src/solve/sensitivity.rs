@@ -50,7 +50,15 @@ pub fn partials_per_rad(
     let x = q * c * c - 1.0;
     let y = q * s * c;
     let e = x.hypot(y);
-    let (cn, sn) = if e > 0.0 { (x / e, y / e) } else { (1.0, 0.0) };
+    // At e = 0 (within the rounding of Q: a circular target's speed is
+    // rounded, and which side of circular it lands on would decide the
+    // apsides' labels) take nu = 0, the one-sided derivative towards higher
+    // speed, as for an exact circle.
+    let (cn, sn) = if e > 8.0 * f64::EPSILON * q.max(1.0) {
+        (x / e, y / e)
+    } else {
+        (1.0, 0.0)
+    };
     let dq = [2.0 * q / v, 0.0, q / r];
     let dx = [c * c * dq[0], -2.0 * q * s * c, c * c * dq[2]];
     let dy = [s * c * dq[0], q * (c * c - s * s), s * c * dq[2]];

@@ -182,3 +182,56 @@ fn implausible_sigma_is_warned_with_the_unit_read() {
     let quiet = run(&["budget", "--case", &crate::case_path("gto-budget.toml")]);
     assert!(!quiet.stdout.contains("was read as"), "{}", quiet.stdout);
 }
+
+/// Regressions (issue 14, items 2 and 6): a circular target flown from a
+/// site keeps burnout at true anomaly 0 with the partials of the same orbit
+/// without a site (apoapsis +, ecc + per m/s: more speed at a circle makes
+/// burnout the periapsis), and the two plane answers say which is which,
+/// each with its own surface speed (omega r cos(latitude) at its own
+/// burnout point; Earth's omega 7.292115e-5 rad/s, IERS Conventions 2010).
+#[test]
+fn circular_target_from_a_site_keeps_its_partials_and_names_its_planes() {
+    let target = [
+        "--burnout-alt",
+        "200",
+        "--periapsis-alt",
+        "200",
+        "--apoapsis-alt",
+        "200",
+    ];
+    let plain = solve_json(&target);
+    let want = &solutions(&plain)[0]["sensitivity"]["matrix"];
+    assert!(num(want, "/1/0") > 3000.0, "apoapsis per m/s {want}");
+    assert!(num(want, "/3/0") > 2e-4, "ecc per m/s {want}");
+    let mut args = target.to_vec();
+    args.extend([
+        "--latitude",
+        "28.5",
+        "--downrange",
+        "1500km",
+        "--inclination",
+        "51.6",
+    ]);
+    let doc = solve_json(&args);
+    let sols = solutions(&doc);
+    assert_eq!(sols.len(), 2);
+    let mut planes: Vec<&str> = sols.iter().map(|s| s["plane"].as_str().unwrap()).collect();
+    planes.sort_unstable();
+    assert_eq!(planes, ["northbound", "southbound"]);
+    for s in sols {
+        assert_eq!(num(s, "/true_anomaly_deg"), 0.0);
+        assert_eq!(&s["sensitivity"]["matrix"], want);
+        let az = num(s, "/launch_azimuth_deg").to_radians();
+        assert_eq!(s["plane"] == "northbound", az.cos() > 0.0);
+        let lat = num(s, "/burnout_latitude_deg").to_radians();
+        let r = num(s, "/burnout_radius_m");
+        assert_relative_eq!(
+            num(s, "/rotation_speed_m_s"),
+            7.292115e-5 * r * lat.cos(),
+            max_relative = 1e-12
+        );
+    }
+    assert!(
+        (num(&sols[0], "/rotation_speed_m_s") - num(&sols[1], "/rotation_speed_m_s")).abs() > 10.0
+    );
+}
