@@ -273,6 +273,7 @@ fn solver_answer_for_a_coast_time_reaches_apoapsis_at_that_time() {
         speed_m_s: None,
         min_periapsis_alt_m: None,
         site: None,
+        above_alt_m: None,
         body,
     };
     let solved = solve(&problem).unwrap();
@@ -374,6 +375,7 @@ fn integrated_coast_roots_in_hard_regimes_reach_periapsis_on_time() {
         speed_m_s: Some(6_527.456_784_168_85),
         min_periapsis_alt_m: None,
         site: None,
+        above_alt_m: None,
         body: earth,
     }];
     for p in &cases {

@@ -184,14 +184,19 @@ impl ProblemArgs {
 
     /// The case file's inputs (if any) with the flags laid over them.
     pub fn inputs(&self) -> Result<Inputs, Error> {
+        self.inputs_and_title().map(|(inputs, _)| inputs)
+    }
+
+    /// As [`ProblemArgs::inputs`], with the case file's title if it has one.
+    pub fn inputs_and_title(&self) -> Result<(Inputs, Option<String>), Error> {
         let flags = self.flag_inputs();
         reject_empty(&flags)?;
         match &self.case {
-            None => Ok(flags),
+            None => Ok((flags, None)),
             Some(path) => {
                 let text = read_case_file(path)?;
                 let case = parse_case(&text, path)?;
-                Ok(overlay(case.inputs, &flags))
+                Ok((overlay(case.inputs, &flags), case.title))
             }
         }
     }

@@ -23,11 +23,16 @@ pub struct Args {
 
 /// Solves and prints; returns the exit code.
 pub fn run(args: Args) -> Result<i32, Error> {
-    let inputs = args.problem.inputs()?;
+    let (inputs, title) = args.problem.inputs_and_title()?;
     let solved = solve_inputs(&inputs)?;
     let mut buf = Vec::new();
     match args.format {
-        Format::Table => report::table::write(&mut buf, &solved, args.units.into()).map_err(io)?,
+        Format::Table => {
+            if let Some(title) = title.filter(|t| !t.trim().is_empty()) {
+                buf.extend_from_slice(format!("case: {}\n\n", title.trim()).as_bytes());
+            }
+            report::table::write(&mut buf, &solved, args.units.into()).map_err(io)?
+        }
         Format::Json => report::json::write(&mut buf, &solved).map_err(io)?,
         Format::Csv => report::csv::write(&mut buf, &solved, args.sensitivities)
             .map_err(|e| Error::Io(format!("cannot write csv: {e}")))?,

@@ -134,6 +134,8 @@ pub const KEYS: &[Key] = &[
         "Target inclination (bare: deg); needs a site."),
     key!("min-periapsis-alt", Some(K::Length), Role::Option, ("options", "min-periapsis-alt"), "minimum periapsis altitude", None, Some(29),
         "Lowest periapsis altitude considered safe (bare: km) [default: earth 150 km, common practice]."),
+    key!("above-alt", Some(K::Length), Role::Option, ("options", "above-alt"), "timing altitude", None, None,
+        "Altitude above which the flight is timed (bare: km): time above it, for a sounding shot the experiment window."),
     key!("speed-sigma", Some(K::Speed), Role::Budget, ("budget", "speed-sigma"), "speed sigma", None, None,
         "1-sigma burnout speed error (bare: km/s)."),
     key!("fpa-sigma", Some(K::Angle), Role::Budget, ("budget", "fpa-sigma"), "fpa sigma", None, None,

@@ -356,6 +356,7 @@ pub fn problem_from_inputs(inputs: &Inputs) -> Result<Problem, Error> {
         .transpose()?;
     let min_periapsis_alt_m = num(inputs, "min-periapsis-alt", Kind::Length)?;
     let site = site_from_inputs(inputs, &body)?;
+    let above_alt_m = num(inputs, "above-alt", Kind::Length)?;
     Ok(Problem {
         body,
         burnout_radius_m,
@@ -364,6 +365,7 @@ pub fn problem_from_inputs(inputs: &Inputs) -> Result<Problem, Error> {
         speed_m_s,
         min_periapsis_alt_m,
         site,
+        above_alt_m,
     })
 }
 

@@ -122,6 +122,9 @@ pub struct SolutionJson {
     /// the sign of the radial speed).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub plane: Option<&'static str>,
+    /// Flight-plan numbers: times to the apsides, apsis speeds, v-infinity
+    /// and asymptote, impact, time above `--above-alt` (addition).
+    pub flight: serde_json::Value,
     /// Exact changes of the orbit for reference burnout errors of either
     /// sign, from the forward map (addition; see `near_circular`).
     pub response: ResponseJson,
@@ -208,6 +211,69 @@ pub struct SolveJson {
     pub warnings: Vec<String>,
     /// How it was solved.
     pub solver: SolverJson,
+    /// The inputs answered, in SI (addition): burnout point, fixed speed and
+    /// angle, targets by key, site, options.
+    pub inputs: serde_json::Value,
+}
+
+/// The problem's inputs in SI (radians as degrees, keys with units).
+fn inputs_json(solved: &Solved) -> serde_json::Value {
+    let p = &solved.problem;
+    let mut targets = serde_json::Map::new();
+    for t in &p.targets {
+        let v = if t.quantity == crate::solve::target::TargetQuantity::AngleToApoapsis {
+            t.value.to_degrees()
+        } else {
+            t.value
+        };
+        targets.insert(t.quantity.key().to_string(), serde_json::json!(v));
+    }
+    let site = p.site.map(|s| {
+        serde_json::json!({
+            "latitude_deg": s.latitude_geodetic_rad.to_degrees(),
+            "longitude_deg": s.longitude_rad.to_degrees(),
+            "azimuth_deg": s.azimuth_rad.map(f64::to_degrees),
+            "downrange_deg": s.downrange_rad.to_degrees(),
+            "inclination_deg": s.inclination_rad.map(f64::to_degrees),
+        })
+    });
+    serde_json::json!({
+        "burnout_radius_m": p.burnout_radius_m,
+        "speed_m_s": p.speed_m_s,
+        "flight_path_angle_deg": p.flight_path_angle_rad.map(f64::to_degrees),
+        "targets": targets,
+        "site": site,
+        "min_periapsis_alt_m": p.min_periapsis_alt_m,
+        "above_alt_m": p.above_alt_m,
+    })
+}
+
+/// The flight-plan numbers of a solution (see [`crate::solve::flight`]).
+fn flight_json(solved: &Solved, s: &Solution) -> serde_json::Value {
+    let f =
+        crate::solve::flight::flight_numbers(&solved.body, &s.state, solved.problem.above_alt_m);
+    let from_site = s
+        .site
+        .and(solved.problem.site)
+        .map(|site| site.downrange_rad);
+    serde_json::json!({
+        "to_apoapsis_s": f.to_apoapsis_s,
+        "to_periapsis_s": f.to_periapsis_s,
+        "periapsis_speed_m_s": f.periapsis_speed_m_s,
+        "apoapsis_speed_m_s": f.apoapsis_speed_m_s,
+        "v_infinity_m_s": f.v_infinity_m_s,
+        "asymptote_angle_deg": f.asymptote_angle_rad.map(f64::to_degrees),
+        "impact": f.impact.map(|i| serde_json::json!({
+            "time_s": i.time_s,
+            "speed_m_s": i.speed_m_s,
+            "flight_path_angle_deg": i.flight_path_angle_rad.to_degrees(),
+            "downrange_deg": i.downrange_rad.to_degrees(),
+            "ground_range_m": i.ground_range_m,
+            "ground_range_from_site_m": from_site.map(|d| (d + i.downrange_rad) * solved.body.radius_m),
+        })),
+        "above_alt_m": solved.problem.above_alt_m,
+        "time_above_s": f.time_above_s,
+    })
 }
 
 /// Orbit object of a solution.
@@ -264,6 +330,7 @@ fn solution_json(mu: f64, surface_m: f64, s: &Solution) -> SolutionJson {
         plane: s
             .site
             .map(|x| crate::physics::site::plane_label(x.launch_azimuth_rad)),
+        flight: serde_json::Value::Null,
         response,
         near_circular,
     }
@@ -283,7 +350,11 @@ pub fn document(solved: &Solved) -> SolveJson {
     let solutions: Vec<SolutionJson> = solved
         .solutions
         .iter()
-        .map(|s| solution_json(mu, surface, s))
+        .map(|s| {
+            let mut j = solution_json(mu, surface, s);
+            j.flight = flight_json(solved, s);
+            j
+        })
         .collect();
     let residuals = residual_map(&solved.solver.residuals);
     let shared = solved.shared_burnout_radius_m();
@@ -306,6 +377,7 @@ pub fn document(solved: &Solved) -> SolveJson {
             termination: solved.solver.termination.clone(),
             residuals,
         },
+        inputs: inputs_json(solved),
     }
 }
 

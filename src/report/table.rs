@@ -87,6 +87,7 @@ pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std:
     write_states(out, &c)?;
     write_site(out, &c)?;
     write_orbits(out, &c)?;
+    write_flight(out, &c)?;
     write_coefficients(out, &c)?;
     let warnings = solved.warnings();
     if !warnings.is_empty() {
@@ -333,6 +334,94 @@ fn write_orbits(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
             "  angular momentum {} km2/s",
             fixed(c.angular_momentum_m2_s(mu) / 1e6, 3)
         )?;
+    }
+    Ok(())
+}
+
+/// The numbers a flight plan needs, per solution.
+fn write_flight(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
+    let (lu, lf, su, sf, solved) = (c.lu, c.lf, c.su, c.sf, c.solved);
+    let above = solved.problem.above_alt_m;
+    for s in &solved.solutions {
+        let f = crate::solve::flight::flight_numbers(c.body, &s.state, above);
+        writeln!(out)?;
+        writeln!(out, "flight plan ({}):", s.state.branch.name())?;
+        let speed = |v: f64| format!("{} {su}", fixed(v / sf, 4));
+        match (f.to_apoapsis_s, f.apoapsis_speed_m_s) {
+            (Some(t), Some(v)) => writeln!(
+                out,
+                "  to apoapsis      {} (speed there {})",
+                duration(t),
+                speed(v)
+            )?,
+            _ if s.state.conic.apoapsis_radius_m().is_none() => {}
+            _ => writeln!(
+                out,
+                "  to apoapsis      not reached (the path meets the surface first)"
+            )?,
+        }
+        match (f.to_periapsis_s, f.periapsis_speed_m_s) {
+            (Some(t), Some(v)) => writeln!(
+                out,
+                "  to periapsis     {} (speed there {})",
+                duration(t),
+                speed(v)
+            )?,
+            (None, Some(v)) => writeln!(
+                out,
+                "  to periapsis     past it (outbound); periapsis speed {}",
+                speed(v)
+            )?,
+            _ => writeln!(
+                out,
+                "  to periapsis     not reached (periapsis is under the surface)"
+            )?,
+        }
+        if let (Some(vinf), Some(ang)) = (f.v_infinity_m_s, f.asymptote_angle_rad) {
+            writeln!(
+                out,
+                "  v-infinity       {} ; outgoing asymptote {} deg of travel from burnout",
+                speed(vinf),
+                fixed(ang.to_degrees(), 4)
+            )?;
+        }
+        if let Some(i) = f.impact {
+            let mut range = format!(
+                "{} deg downrange ({} {lu} over the surface",
+                fixed(i.downrange_rad.to_degrees(), 4),
+                fixed(i.ground_range_m / lf, 3)
+            );
+            if let (Some(site), Some(_)) = (solved.problem.site, s.site) {
+                range.push_str(&format!(
+                    ", {} {lu} from the site",
+                    fixed(
+                        (site.downrange_rad + i.downrange_rad) * c.body.radius_m / lf,
+                        3
+                    )
+                ));
+            }
+            range.push(')');
+            writeln!(
+                out,
+                "  impact           {} after burnout at {}, flight-path angle {} deg, {range}",
+                duration(i.time_s),
+                speed(i.speed_m_s),
+                fixed(i.flight_path_angle_rad.to_degrees(), 4)
+            )?;
+        }
+        if let (Some(alt), Some(t)) = (above, f.time_above_s) {
+            writeln!(
+                out,
+                "  above {} {lu}{}  {}",
+                fixed(alt / lf, 3),
+                if f.impact.is_some() {
+                    ""
+                } else {
+                    " (per revolution)"
+                },
+                duration(t)
+            )?;
+        }
     }
     Ok(())
 }

@@ -118,6 +118,7 @@ mod tests {
                     speed_m_s: None,
                     min_periapsis_alt_m: None,
                     site: None,
+                    above_alt_m: None,
                 };
                 match (crate::solve(&problem), solve_pair(&earth, &a, &b, r)) {
                     (Ok(full), Ok(lean)) => {

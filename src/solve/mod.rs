@@ -9,6 +9,7 @@
 pub mod budget;
 pub mod fast_pair;
 pub mod feasibility;
+pub mod flight;
 pub mod invert;
 pub mod launch;
 pub mod numeric;

@@ -30,6 +30,8 @@ pub struct Problem {
     /// The launch site the vehicle flies from, if any: the launch azimuth is
     /// then part of the answer (see [`crate::solve::launch`]).
     pub site: Option<SiteInputs>,
+    /// Altitude above which the reports time the flight (`--above-alt`), m.
+    pub above_alt_m: Option<f64>,
 }
 
 /// One solution: a burnout state with its sensitivities and warnings.
@@ -73,6 +75,8 @@ pub struct Solved {
     pub solutions: Vec<Solution>,
     /// How it was solved.
     pub solver: SolverReport,
+    /// The problem answered (its inputs in SI, echoed by the reports).
+    pub problem: Problem,
 }
 
 impl Solved {
@@ -268,6 +272,7 @@ pub(crate) fn finish(
         burnout_radius_m,
         solutions,
         solver: report,
+        problem: problem.clone(),
     }
 }
 
@@ -392,6 +397,7 @@ mod tests {
             speed_m_s: None,
             min_periapsis_alt_m: None,
             site: None,
+            above_alt_m: None,
         }
     }
 
@@ -479,6 +485,7 @@ mod tests {
             speed_m_s: None,
             min_periapsis_alt_m: None,
             site: None,
+            above_alt_m: None,
         };
         let s = solve(&p).unwrap();
         assert_eq!(s.solutions.len(), 1);
@@ -502,6 +509,7 @@ mod tests {
             speed_m_s: Some(9_000.0),
             min_periapsis_alt_m: None,
             site: None,
+            above_alt_m: None,
         };
         let s = solve(&p).unwrap();
         let c = s.solutions[0].state.conic;

@@ -235,3 +235,76 @@ fn circular_target_from_a_site_keeps_its_partials_and_names_its_planes() {
         (num(&sols[0], "/rotation_speed_m_s") - num(&sols[1], "/rotation_speed_m_s")).abs() > 10.0
     );
 }
+
+/// Issue 14, flight-plan numbers: a sounding shot's times, impact and time
+/// above an altitude. Check values from Kepler's equation on the shot's own
+/// ellipse (a and e from the JSON orbit): with cos E = (1 - r/a)/e and
+/// M = E - e sin E, the time from the climb through r to the descent
+/// through r is 2 (pi - M(r)) / n, n = sqrt(mu / a^3); impact speed from
+/// vis-viva at the surface.
+#[test]
+fn sounding_shot_gets_its_flight_numbers() {
+    let doc = solve_json(&[
+        "--case",
+        &crate::case_path("sounding-shot.toml"),
+        "--above-alt",
+        "100km",
+    ]);
+    let mu = num(&doc, "/body/mu_m3_s2");
+    let re = num(&doc, "/body/radius_m");
+    for s in solutions(&doc) {
+        let (a, e) = (num(s, "/orbit/sma_m"), num(s, "/orbit/ecc"));
+        let n = (mu / (a * a * a)).sqrt();
+        let mean = |r: f64| {
+            let ea = ((1.0 - r / a) / e).acos();
+            ea - e * ea.sin()
+        };
+        let f = &s["flight"];
+        assert_relative_eq!(
+            num(f, "/time_above_s"),
+            2.0 * (std::f64::consts::PI - mean(re + 100e3)) / n,
+            max_relative = 1e-9
+        );
+        assert_relative_eq!(
+            num(f, "/impact/speed_m_s").powi(2),
+            mu * (2.0 / re - 1.0 / a),
+            max_relative = 1e-12
+        );
+        assert!(num(f, "/impact/flight_path_angle_deg") < 0.0);
+        assert!(f["to_periapsis_s"].is_null() && f["periapsis_speed_m_s"].is_null());
+        assert_eq!(num(&doc, "/inputs/above_alt_m"), 100e3);
+    }
+}
+
+/// Issue 14, item 3: an outbound hyperbola whose periapsis is under the
+/// surface never comes back: no impact in the flight numbers, and its
+/// v-infinity is sqrt(C3).
+#[test]
+fn outbound_escape_has_no_impact_and_a_v_infinity() {
+    let doc = solve_json(&["--burnout-alt", "250", "--speed", "11.5", "--fpa", "60"]);
+    let s = &solutions(&doc)[0];
+    assert!(s["flight"]["impact"].is_null(), "{}", s["flight"]);
+    let c3 = num(s, "/orbit/c3_m2_s2");
+    assert_relative_eq!(
+        num(s, "/flight/v_infinity_m_s"),
+        c3.sqrt(),
+        max_relative = 1e-12
+    );
+}
+
+/// Issue 14: the case file's title heads the human output.
+#[test]
+fn case_title_heads_the_table() {
+    let r = run(&["solve", "--case", &crate::case_path("gto-injection.toml")]);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    let text = std::fs::read_to_string(crate::case_path("gto-injection.toml")).unwrap();
+    let title = text
+        .lines()
+        .find_map(|l| l.strip_prefix("title = \""))
+        .and_then(|l| l.strip_suffix('"'))
+        .expect("the case has a title");
+    assert_eq!(
+        r.stdout.lines().next(),
+        Some(format!("case: {title}").as_str())
+    );
+}

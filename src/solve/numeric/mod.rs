@@ -744,6 +744,7 @@ mod tests {
             speed_m_s: v,
             min_periapsis_alt_m: None,
             site: None,
+            above_alt_m: None,
         }
     }
 
@@ -1001,6 +1002,7 @@ mod properties {
                 speed_m_s: None,
                 min_periapsis_alt_m: None,
                 site: None,
+                above_alt_m: None,
             };
             let v0 = v_factor * exact[0].speed_m_s;
             match solve_from(&problem, (r, v0, g_deg.to_radians())) {
