@@ -275,7 +275,7 @@ fn write_site(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
 
 /// The orbit (one per distinct orbit among the solutions).
 fn write_orbits(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
-    let (lu, lf, body, solved, mu) = (c.lu, c.lf, c.body, c.solved, c.mu);
+    let (lu, lf, body, solved, mu, c_units) = (c.lu, c.lf, c.body, c.solved, c.mu, c.units);
     let distinct_orbits = solved
         .solutions
         .windows(2)
@@ -319,20 +319,29 @@ fn write_orbits(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
             Some(t) => writeln!(out, "  period           {}", duration(t))?,
             None => writeln!(out, "  period           none (open orbit)")?,
         }
+        // Energies per unit mass and angular momentum in the table's units:
+        // km2/s2 and km2/s, or ft2/s2 and ft2/s with --units us.
+        let (e_unit, e_scale, h_unit, h_scale) = match c_units {
+            DisplayUnits::Si => ("km2/s2", 1e6, "km2/s", 1e6),
+            DisplayUnits::Us => ("ft2/s2", FT_M * FT_M, "ft2/s", FT_M * FT_M),
+        };
+        let energy = |x: f64| match c_units {
+            DisplayUnits::Si => fixed(x / e_scale, 6),
+            DisplayUnits::Us => sig(x / e_scale),
+        };
         writeln!(
             out,
-            "  specific energy  {} km2/s2",
-            fixed(c.specific_energy_j_kg(mu) / 1e6, 6)
+            "  specific energy  {} {e_unit}",
+            energy(c.specific_energy_j_kg(mu))
         )?;
+        writeln!(out, "  C3               {} {e_unit}", energy(c.c3_m2_s2(mu)))?;
         writeln!(
             out,
-            "  C3               {} km2/s2",
-            fixed(c.c3_m2_s2(mu) / 1e6, 6)
-        )?;
-        writeln!(
-            out,
-            "  angular momentum {} km2/s",
-            fixed(c.angular_momentum_m2_s(mu) / 1e6, 3)
+            "  angular momentum {} {h_unit}",
+            match c_units {
+                DisplayUnits::Si => fixed(c.angular_momentum_m2_s(mu) / h_scale, 3),
+                DisplayUnits::Us => sig(c.angular_momentum_m2_s(mu) / h_scale),
+            }
         )?;
     }
     Ok(())
