@@ -3,7 +3,8 @@
 
 use crate::error::g;
 use crate::physics::body::Body;
-use crate::physics::state::BurnoutState;
+use crate::physics::orbit::Conic;
+use crate::physics::state::{Branch, BurnoutState};
 use std::f64::consts::PI;
 
 /// A warning about a solved state.
@@ -23,6 +24,18 @@ pub enum Warning {
         impact_true_anomaly_rad: f64,
         /// Angle travelled from burnout to the surface, rad.
         downrange_rad: f64,
+    },
+    /// Periapsis is below the surface, but burnout is outbound on an open
+    /// orbit (parabola or hyperbola): the radius only grows from burnout on,
+    /// the periapsis is behind the vehicle and the trajectory never meets
+    /// the surface. Not an impact, and not suborbital.
+    PeriapsisBelowSurfaceNotReached {
+        /// Branch of the state warned about.
+        branch: &'static str,
+        /// Periapsis radius, m.
+        periapsis_radius_m: f64,
+        /// Surface radius, m.
+        surface_radius_m: f64,
     },
     /// Periapsis is above the surface but below the lowest safe altitude.
     LowPeriapsis {
@@ -60,6 +73,16 @@ impl std::fmt::Display for Warning {
                 g(downrange_rad.to_degrees()),
                 g(downrange_rad * surface_radius_m / 1e3)
             ),
+            Warning::PeriapsisBelowSurfaceNotReached {
+                branch,
+                periapsis_radius_m,
+                surface_radius_m,
+            } => write!(
+                f,
+                "periapsis below the surface, not reached ({branch}): periapsis radius {} m is below the surface radius {} m, but burnout is outbound on an open orbit, which only climbs from burnout on: the trajectory does not meet the surface",
+                g(*periapsis_radius_m),
+                g(*surface_radius_m)
+            ),
             Warning::LowPeriapsis {
                 periapsis_alt_m,
                 min_alt_m,
@@ -81,8 +104,81 @@ impl std::fmt::Display for Warning {
     }
 }
 
+/// Where a trajectory first meets the surface after burnout.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SurfaceCrossing {
+    /// True anomaly at the crossing, rad in [0, 2 pi).
+    pub true_anomaly_rad: f64,
+    /// Angle travelled from burnout to the crossing, rad (0 or more).
+    pub downrange_rad: f64,
+}
+
+/// Half-width nu_s of the arc of a conic below the surface radius `rs`
+/// (r(nu) < rs for |nu| < nu_s), rad in [0, pi], for a periapsis below `rs`.
+///
+/// From the conic equation r = p / (1 + e cos nu) = rs, in the half-angle
+/// form tan^2(nu_s/2) = (1 - cos nu_s) / (1 + cos nu_s), with
+/// 1 - cos nu_s = (1 + e)(rs - rp) / (e rs) and
+/// 1 + cos nu_s = (p - (1 - e) rs) / (e rs). On an ellipse (p, 1 - e and
+/// 1 + e from the apsides) this is ra (rs - rp) / (rp (ra - rs)); on an open
+/// conic, with e - 1 = -rp/a, (1 + e)(rs - rp) / ((1 + e) rp - rs rp / a).
+/// Both are ratios of non-negative terms: no acos, which would lose half
+/// its digits for a periapsis just under the surface (nu_s near 0) and for
+/// an apoapsis just over it (nu_s near pi).
+fn below_surface_half_arc_rad(conic: &Conic, rs: f64) -> f64 {
+    let rp = conic.periapsis_radius_m();
+    let (num, den) = match conic.apoapsis_radius_m() {
+        Some(ra) => (ra * (rs - rp), rp * (ra - rs)),
+        None => {
+            let one_plus_e = 1.0 + conic.ecc();
+            (
+                one_plus_e * (rs - rp),
+                one_plus_e * rp - rs * rp * conic.inv_sma_per_m(),
+            )
+        }
+    };
+    if den > 0.0 {
+        2.0 * (num / den).sqrt().atan()
+    } else {
+        // The whole ellipse lies at or under the surface (apoapsis at it).
+        PI
+    }
+}
+
+/// Where the path from burnout first meets the surface of radius
+/// `surface_radius_m`, or `None` when it never does.
+///
+/// After burnout the true anomaly grows. With nu_s the half-width of the
+/// arc below the surface (`below_surface_half_arc_rad`), the path meets
+/// the surface at the first nu after burnout with r(nu) = rs, which is
+/// always nu = 2 pi - nu_s (on the way down to periapsis): an ellipse gets
+/// there from either branch (climbing, over apoapsis, then down); an open
+/// orbit (|nu| < acos(-1/e)) only when burnout is inbound (descending), since
+/// an outbound open orbit climbs for ever and never reaches its periapsis.
+pub fn surface_crossing(surface_radius_m: f64, state: &BurnoutState) -> Option<SurfaceCrossing> {
+    let conic = &state.conic;
+    let rs = surface_radius_m;
+    let rp = conic.periapsis_radius_m();
+    if rp >= rs || rp.is_nan() {
+        return None;
+    }
+    if conic.apoapsis_radius_m().is_none() && state.branch == Branch::Ascending {
+        return None;
+    }
+    let nu_impact = 2.0 * PI - below_surface_half_arc_rad(conic, rs);
+    Some(SurfaceCrossing {
+        true_anomaly_rad: nu_impact,
+        downrange_rad: (nu_impact - state.true_anomaly_rad).max(0.0),
+    })
+}
+
 /// Checks one solved state against the body's surface and a minimum safe
 /// periapsis altitude (m above the surface; `None` for no check).
+///
+/// A periapsis under the surface is [`Warning::Suborbital`] when the path
+/// from burnout meets the surface ([`surface_crossing`]), and
+/// [`Warning::PeriapsisBelowSurfaceNotReached`] on an outbound open orbit,
+/// which never comes back down.
 pub fn check_state(
     body: &Body,
     state: &BurnoutState,
@@ -92,18 +188,19 @@ pub fn check_state(
     let rp = state.conic.periapsis_radius_m();
     let rs = body.radius_m;
     if rp < rs {
-        // r(nu) = p / (1 + e cos nu) = rs on the way down: nu in (pi, 2 pi).
-        let e = state.conic.ecc();
-        let p = state.conic.semi_latus_rectum_m();
-        let cos_nu = ((p / rs - 1.0) / e).clamp(-1.0, 1.0);
-        let nu_impact = 2.0 * PI - cos_nu.acos();
-        let downrange = (nu_impact - state.true_anomaly_rad).max(0.0);
-        out.push(Warning::Suborbital {
-            branch: state.branch.name(),
-            periapsis_radius_m: rp,
-            surface_radius_m: rs,
-            impact_true_anomaly_rad: nu_impact,
-            downrange_rad: downrange,
+        out.push(match surface_crossing(rs, state) {
+            Some(x) => Warning::Suborbital {
+                branch: state.branch.name(),
+                periapsis_radius_m: rp,
+                surface_radius_m: rs,
+                impact_true_anomaly_rad: x.true_anomaly_rad,
+                downrange_rad: x.downrange_rad,
+            },
+            None => Warning::PeriapsisBelowSurfaceNotReached {
+                branch: state.branch.name(),
+                periapsis_radius_m: rp,
+                surface_radius_m: rs,
+            },
         });
     } else if let Some(min_alt) = min_periapsis_alt_m {
         if rp - rs < min_alt {
@@ -140,6 +237,70 @@ mod tests {
             ),
             other => panic!("unexpected {other:?}"),
         }
+    }
+
+    #[test]
+    fn outbound_open_orbit_under_the_surface_never_meets_it() {
+        // 11.5 km/s at 60 deg from 250 km: C3 = v^2 - 2 mu / r > 0
+        // (vis-viva), climbing, periapsis 1775 km from the centre.
+        let earth = Body::from_name("earth").unwrap();
+        let r = earth.radius_m + 250e3;
+        let st = forward_state(earth.mu_m3_s2, r, 11_500.0, 60f64.to_radians()).unwrap();
+        assert!(st.conic.apoapsis_radius_m().is_none());
+        assert!(st.conic.periapsis_radius_m() < earth.radius_m);
+        assert_eq!(surface_crossing(earth.radius_m, &st), None);
+        let w = check_state(&earth, &st, Some(150e3));
+        assert!(
+            matches!(
+                w.as_slice(),
+                [Warning::PeriapsisBelowSurfaceNotReached {
+                    branch: "ascending",
+                    ..
+                }]
+            ),
+            "{w:?}"
+        );
+        // Inbound on the same conic (mirror image): it does come down.
+        let st = forward_state(earth.mu_m3_s2, r, 11_500.0, -60f64.to_radians()).unwrap();
+        let x = surface_crossing(earth.radius_m, &st).unwrap();
+        // The conic equation at the crossing gives the surface radius, and
+        // the crossing lies inside the asymptotes |nu| < acos(-1/e).
+        assert_relative_eq!(
+            st.conic.radius_at_m(x.true_anomaly_rad),
+            earth.radius_m,
+            max_relative = 1e-12
+        );
+        let nu_signed = x.true_anomaly_rad - 2.0 * PI;
+        assert!(nu_signed > -(-1.0 / st.conic.ecc()).acos());
+        assert_relative_eq!(
+            x.downrange_rad,
+            x.true_anomaly_rad - st.true_anomaly_rad,
+            max_relative = 1e-15
+        );
+    }
+
+    #[test]
+    fn grazing_periapsis_keeps_the_digits_of_the_short_arc() {
+        // Periapsis 1 micrometre under the surface: the arc below it is
+        // tiny. Independent form: 1 - cos nu_s = 2 sin^2(nu_s / 2)
+        // = (1 + e)(R - rp) / (e R) (the conic equation at r = R), solved
+        // with asin, well conditioned for a small argument.
+        let rs = 6_378_137.0;
+        let rp = rs - 1e-6;
+        let c = Conic::from_apsides(rp, rs + 800e3).unwrap();
+        let e = c.ecc();
+        let want = 2.0 * ((0.5 * (1.0 + e) * (rs - rp) / (e * rs)).sqrt()).asin();
+        let got = below_surface_half_arc_rad(&c, rs);
+        assert_relative_eq!(got, want, max_relative = 1e-9);
+        // The same conic, open: e just above 1 from 1/a < 0.
+        let open = Conic::open_from_periapsis_inv_sma(rp, -1e-9).unwrap();
+        let e = open.ecc();
+        let want = 2.0 * ((0.5 * (1.0 + e) * (rs - rp) / (e * rs)).sqrt()).asin();
+        assert_relative_eq!(
+            below_surface_half_arc_rad(&open, rs),
+            want,
+            max_relative = 1e-9
+        );
     }
 
     #[test]

@@ -1,0 +1,146 @@
+//! Regression tests for issue 14 ("what the analyst reads"): where a
+//! trajectory meets the surface (escapes that never return, hyperbolas, a
+//! sounding shot), coast targets whose roots fall through the planet, rows
+//! that did not converge, and the extremes of a scan (suborbital rows, the
+//! branch named at an apsis).
+//!
+//! Every check value is computed here from a textbook relation (vis-viva,
+//! the conic equation r = p / (1 + e cos nu), Kepler's equation,
+//! conservation of angular momentum), independently of the product.
+
+use super::{case_path, elements_from_state, num, solutions, solve_json, warnings};
+use approx::assert_relative_eq;
+
+const EARTH_MU: f64 = 3.986004418e14; // IERS Conventions (2010), Table 1.1
+const EARTH_R: f64 = 6_378_137.0; // WGS 84 equatorial radius
+
+/// The number printed right after `label` in `text` (the first occurrence).
+fn number_after(text: &str, label: &str) -> f64 {
+    let at = text
+        .find(label)
+        .unwrap_or_else(|| panic!("no '{label}' in '{text}'"));
+    let rest = &text[at + label.len()..];
+    let end = rest
+        .find(|c: char| !(c.is_ascii_digit() || matches!(c, '.' | '-' | 'e' | '+')))
+        .unwrap_or(rest.len());
+    rest[..end]
+        .parse()
+        .unwrap_or_else(|e| panic!("'{}' after '{label}': {e}", &rest[..end]))
+}
+
+/// Where the conic of semi-latus rectum `p` and eccentricity `e` reaches
+/// radius `rs` on its way down to periapsis, deg in (180, 360): from the
+/// conic equation r = p / (1 + e cos nu) = rs, nu = 360 - acos((p/rs - 1)/e).
+fn descending_crossing_deg(p: f64, e: f64, rs: f64) -> f64 {
+    360.0 - ((p / rs - 1.0) / e).acos().to_degrees()
+}
+
+/// Issue 14, item 3: `--speed 11.5 --fpa 60` from 250 km is an outbound
+/// hyperbola (C3 > 0, climbing): its radius only grows after burnout, so it
+/// never meets the surface, whatever the periapsis of its conic.
+#[test]
+fn outbound_escape_with_periapsis_under_the_surface_claims_no_impact() {
+    let doc = solve_json(&["--burnout-alt", "250", "--speed", "11.5", "--fpa", "60"]);
+    let r = EARTH_R + 250e3;
+    // Vis-viva: C3 = v^2 - 2 mu / r.
+    let c3 = 11_500.0f64.powi(2) - 2.0 * EARTH_MU / r;
+    assert!(c3 > 0.0);
+    assert_relative_eq!(num(&doc, "/orbit/c3_m2_s2"), c3, max_relative = 1e-12);
+    // Independent check that no impact exists: on the conic equation the
+    // radius grows with nu from burnout to the asymptote acos(-1/e).
+    let el = elements_from_state(EARTH_MU, r, 11_500.0, 60.0);
+    assert!(el.periapsis_radius_m < EARTH_R, "{el:?}");
+    let p = el.periapsis_radius_m * (1.0 + el.ecc);
+    let nu_inf = (-1.0 / el.ecc).acos();
+    let nu_b = el.true_anomaly_deg.to_radians();
+    assert!(nu_b < nu_inf);
+    let lowest = (0..1000)
+        .map(|k| nu_b + (nu_inf - nu_b) * k as f64 / 1000.0)
+        .map(|nu| p / (1.0 + el.ecc * nu.cos()))
+        .fold(f64::INFINITY, f64::min);
+    assert_relative_eq!(lowest, r, max_relative = 1e-9);
+    let w = warnings(&doc);
+    assert_eq!(w.len(), 1, "{w:?}");
+    assert!(
+        w[0].starts_with("periapsis below the surface, not reached (ascending)"),
+        "{}",
+        w[0]
+    );
+    assert!(w[0].contains("does not meet the surface"), "{}", w[0]);
+    assert!(
+        !w[0].contains("suborbital") && !w[0].contains("downrange"),
+        "{}",
+        w[0]
+    );
+}
+
+/// Issue 14, item 3: `--sma=-20000 --ecc 1.3` from 250 km. The ascending
+/// (outbound) burnout never comes back; the descending (inbound) one meets
+/// the surface at the first nu after burnout with r(nu) = R, which lies
+/// inside the hyperbola's range |nu| < acos(-1/e) = 140.3 deg.
+#[test]
+fn inbound_hyperbola_meets_the_surface_where_the_conic_equation_says() {
+    let doc = solve_json(&["--burnout-alt", "250", "--sma=-20000", "--ecc", "1.3"]);
+    let sols = solutions(&doc);
+    assert_eq!(sols.len(), 2);
+    let (a, e) = (-20_000e3f64, 1.3f64);
+    let p = a * (1.0 - e * e); // semi-latus rectum of a hyperbola, a < 0
+    let nu_inf = (-1.0 / e).acos().to_degrees();
+    for s in sols {
+        let w: Vec<&str> = s["warnings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|x| x.as_str().unwrap())
+            .collect();
+        assert_eq!(w.len(), 1, "{w:?}");
+        let nu_b = num(s, "/true_anomaly_deg");
+        match s["branch"].as_str().unwrap() {
+            "ascending" => {
+                assert!(nu_b < nu_inf);
+                assert!(
+                    w[0].starts_with("periapsis below the surface, not reached (ascending)"),
+                    "{}",
+                    w[0]
+                );
+            }
+            "descending" => {
+                assert!(w[0].starts_with("suborbital (descending)"), "{}", w[0]);
+                let nu_hit = number_after(w[0], "at true anomaly ");
+                let down = number_after(w[0], " deg, ");
+                let want = descending_crossing_deg(p, e, EARTH_R);
+                // Printed to 10 significant digits.
+                assert_relative_eq!(nu_hit, want, max_relative = 1e-9);
+                assert!(nu_hit - 360.0 > -nu_inf, "{nu_hit} outside the hyperbola");
+                assert_relative_eq!(down, want - nu_b, max_relative = 1e-8);
+            }
+            other => panic!("branch {other}"),
+        }
+    }
+}
+
+/// Issue 14, item 3, the closed case: the shipped sounding shot climbs,
+/// passes apoapsis and meets the surface on its descending leg, at the
+/// crossing the conic equation gives.
+#[test]
+fn sounding_shot_still_meets_the_surface_on_its_way_down() {
+    let doc = solve_json(&["--case", &case_path("sounding-shot.toml")]);
+    let s = &solutions(&doc)[0];
+    let w = warnings(&doc);
+    assert_eq!(w.len(), 1, "{w:?}");
+    assert!(w[0].starts_with("suborbital (ascending)"), "{}", w[0]);
+    let (p, e) = (num(s, "/orbit/semi_latus_rectum_m"), num(s, "/orbit/ecc"));
+    let nu_hit = number_after(&w[0], "at true anomaly ");
+    let down = number_after(&w[0], " deg, ");
+    assert!(nu_hit > 180.0, "impact on the way down");
+    // The conic equation at the printed anomaly gives back the surface
+    // radius (the slope there is 6.7e7 m/rad, and 10 digits of the angle
+    // leave about 0.1 m).
+    let r_hit = p / (1.0 + e * nu_hit.to_radians().cos());
+    assert_relative_eq!(r_hit, EARTH_R, max_relative = 1e-7);
+    assert_relative_eq!(
+        down,
+        descending_crossing_deg(p, e, EARTH_R) - num(s, "/true_anomaly_deg"),
+        max_relative = 1e-7
+    );
+}
