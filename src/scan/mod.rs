@@ -31,7 +31,6 @@ pub use crate::input::keys::solve_input_kind;
 pub use extreme::{Extreme, ExtremeKind, Refinement};
 pub use plan::{column_name, Axis, Plan};
 
-use crate::error::ErrorClass;
 use crate::solve::problem::{no_branch_message, BranchChoice, SolutionView};
 use extreme::{branch_bit, fold_extreme, GridExtreme};
 pub(crate) use extreme::{branch_names, same_speed};
@@ -316,9 +315,12 @@ impl Plan {
                 }
                 Err(e) => {
                     stats.rows += 1;
-                    match e.class() {
-                        ErrorClass::Usage | ErrorClass::Io => stats.invalid += 1,
-                        ErrorClass::Infeasible => stats.infeasible += 1,
+                    // Counted as the row's status says (a solve that did not
+                    // converge is `invalid`, not `infeasible`).
+                    if e.status() == "infeasible" {
+                        stats.infeasible += 1;
+                    } else {
+                        stats.invalid += 1;
                     }
                     bytes.extend_from_slice(&prefix);
                     sink.failure(self, e.status(), &e.to_string(), &mut bytes);

@@ -1,10 +1,11 @@
 //! Feasibility warnings for a solved burnout state: checks that do not stop
 //! the answer but that an analyst must see.
 
-use crate::error::g;
+use crate::error::{g, Error};
 use crate::physics::body::Body;
 use crate::physics::orbit::Conic;
 use crate::physics::state::{Branch, BurnoutState};
+use crate::solve::target::{Target, TargetQuantity};
 use std::f64::consts::PI;
 
 /// A warning about a solved state.
@@ -213,6 +214,131 @@ pub fn check_state(
     out
 }
 
+/// The apsis a coast target aims at.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum CoastEvent {
+    /// Time or angle to apoapsis.
+    Apoapsis,
+    /// Time to periapsis.
+    Periapsis,
+}
+
+impl CoastEvent {
+    /// The event a target quantity aims at; `None` for an orbit element.
+    pub fn of(q: TargetQuantity) -> Option<CoastEvent> {
+        match q {
+            TargetQuantity::TimeToApoapsis | TargetQuantity::AngleToApoapsis => {
+                Some(CoastEvent::Apoapsis)
+            }
+            TargetQuantity::TimeToPeriapsis => Some(CoastEvent::Periapsis),
+            _ => None,
+        }
+    }
+
+    /// Lower-case name for messages.
+    pub fn name(self) -> &'static str {
+        match self {
+            CoastEvent::Apoapsis => "apoapsis",
+            CoastEvent::Periapsis => "periapsis",
+        }
+    }
+
+    /// Angle from a burnout at true anomaly `nu_rad` to the next such
+    /// apsis, rad in [0, 2 pi) (0 at the apsis itself).
+    pub fn angle_from_rad(self, nu_rad: f64) -> f64 {
+        let at = match self {
+            CoastEvent::Apoapsis => PI,
+            CoastEvent::Periapsis => 0.0,
+        };
+        (at - nu_rad).rem_euclid(2.0 * PI)
+    }
+}
+
+/// A state whose path meets the surface before an apsis a coast target aims
+/// at: it is not a solution for that target.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SurfaceFirst {
+    /// The apsis targeted.
+    pub event: CoastEvent,
+    /// Where the path meets the surface.
+    pub crossing: SurfaceCrossing,
+    /// Angle from burnout to the apsis, rad.
+    pub event_downrange_rad: f64,
+}
+
+/// The first coast target among `targets` whose apsis the path from `state`
+/// only reaches after meeting the surface of radius `surface_radius_m`.
+pub fn surface_before_event(
+    surface_radius_m: f64,
+    targets: &[Target],
+    state: &BurnoutState,
+) -> Option<SurfaceFirst> {
+    let events = targets.iter().filter_map(|t| CoastEvent::of(t.quantity));
+    let mut events = events.peekable();
+    events.peek()?;
+    let crossing = surface_crossing(surface_radius_m, state)?;
+    events.find_map(|event| {
+        let to_event = event.angle_from_rad(state.true_anomaly_rad);
+        (crossing.downrange_rad < to_event).then_some(SurfaceFirst {
+            event,
+            crossing,
+            event_downrange_rad: to_event,
+        })
+    })
+}
+
+/// The indices of `states` whose paths reach every apsis a coast target of
+/// `targets` aims at before they meet the surface ([`surface_before_event`]).
+///
+/// # Errors
+/// [`Error::Infeasible`] when `states` is not empty and every one meets the
+/// surface first; the message says where each does.
+pub fn reaching_coast_events(
+    body: &Body,
+    targets: &[Target],
+    states: &[BurnoutState],
+) -> Result<Vec<usize>, Error> {
+    let mut kept = Vec::with_capacity(states.len());
+    let mut dropped = Vec::new();
+    for (i, st) in states.iter().enumerate() {
+        match surface_before_event(body.radius_m, targets, st) {
+            None => kept.push(i),
+            Some(why) => dropped.push((st, why)),
+        }
+    }
+    if !kept.is_empty() || dropped.is_empty() {
+        return Ok(kept);
+    }
+    let first = dropped[0].1.event;
+    let lead = if dropped.iter().all(|(_, w)| w.event == first) {
+        first.name()
+    } else {
+        "the targeted apsis"
+    };
+    let each: Vec<String> = dropped
+        .iter()
+        .map(|(st, w)| {
+            let d = w.crossing.downrange_rad;
+            format!(
+                "the {} solution (speed {} m/s, flight-path angle {} deg, periapsis radius {} m) meets the surface {} deg ({} km along the surface) downrange of burnout, {} is {} deg downrange",
+                st.branch.name(),
+                g(st.speed_m_s),
+                g(st.flight_path_angle_rad.to_degrees()),
+                g(st.conic.periapsis_radius_m()),
+                g(d.to_degrees()),
+                g(d * body.radius_m / 1e3),
+                w.event.name(),
+                g(w.event_downrange_rad.to_degrees())
+            )
+        })
+        .collect();
+    Err(Error::Infeasible(format!(
+        "every solution meets the surface before {lead} (surface radius {} m): {}",
+        g(body.radius_m),
+        each.join("; ")
+    )))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -301,6 +427,55 @@ mod tests {
             want,
             max_relative = 1e-9
         );
+    }
+
+    #[test]
+    fn coast_roots_meeting_the_surface_before_their_apsis_are_dropped() {
+        use crate::solve::target::Target;
+        let earth = Body::from_name("earth").unwrap();
+        let (mu, r) = (earth.mu_m3_s2, earth.radius_m + 220e3);
+        // The shipped coast case's two roots (6277 m/s at -26.85 deg has its
+        // periapsis 4165 km under the surface; 8031 m/s at 1.20 deg reaches
+        // apoapsis well above it), and a suborbital climb at 39.5 deg, which
+        // reaches apoapsis before it comes down.
+        let down = forward_state(mu, r, 6_277.069, -26.849f64.to_radians()).unwrap();
+        let up = forward_state(mu, r, 8_031.113, 1.1988f64.to_radians()).unwrap();
+        let lob = forward_state(mu, r, 5_335.091, 39.5238f64.to_radians()).unwrap();
+        assert!(surface_crossing(earth.radius_m, &lob).is_some());
+        let states = [down, up, lob];
+        let apo = [Target::new(TargetQuantity::TimeToApoapsis, 2700.0)];
+        assert_eq!(
+            reaching_coast_events(&earth, &apo, &states).unwrap(),
+            [1, 2]
+        );
+        // The descending root meets the surface 3.69 deg downrange, long
+        // before apoapsis, 3 pi - nu away (through periapsis and up again).
+        let why = surface_before_event(earth.radius_m, &apo, &down).unwrap();
+        assert_eq!(why.event, CoastEvent::Apoapsis);
+        assert_relative_eq!(
+            why.event_downrange_rad,
+            3.0 * PI - down.true_anomaly_rad,
+            max_relative = 1e-15
+        );
+        assert!(why.crossing.downrange_rad < 4f64.to_radians());
+        // To periapsis, the climb meets the surface first too.
+        let peri = [Target::new(TargetQuantity::TimeToPeriapsis, 2700.0)];
+        assert_eq!(reaching_coast_events(&earth, &peri, &states).unwrap(), [1]);
+        // Orbit elements alone: nothing is dropped.
+        let elements = [Target::new(TargetQuantity::ApoapsisRadius, r + 980e3)];
+        assert_eq!(
+            reaching_coast_events(&earth, &elements, &states).unwrap(),
+            [0, 1, 2]
+        );
+        // None left: infeasible, saying where.
+        let e = reaching_coast_events(&earth, &apo, &[down]).unwrap_err();
+        assert_eq!(e.class(), crate::error::ErrorClass::Infeasible);
+        let text = e.to_string();
+        assert!(
+            text.starts_with("every solution meets the surface before apoapsis"),
+            "{text}"
+        );
+        assert!(reaching_coast_events(&earth, &apo, &[]).unwrap().is_empty());
     }
 
     #[test]

@@ -8,8 +8,10 @@
 //! the conic equation r = p / (1 + e cos nu), Kepler's equation,
 //! conservation of angular momentum), independently of the product.
 
-use super::{case_path, elements_from_state, num, solutions, solve_json, warnings};
+use super::{case_path, elements_from_state, num, run, solutions, solve_json, warnings};
 use approx::assert_relative_eq;
+use serde_json::Value;
+use std::f64::consts::PI;
 
 const EARTH_MU: f64 = 3.986004418e14; // IERS Conventions (2010), Table 1.1
 const EARTH_R: f64 = 6_378_137.0; // WGS 84 equatorial radius
@@ -143,4 +145,177 @@ fn sounding_shot_still_meets_the_surface_on_its_way_down() {
         descending_crossing_deg(p, e, EARTH_R) - num(s, "/true_anomaly_deg"),
         max_relative = 1e-7
     );
+}
+
+/// Time of flight from a burnout state to the next apoapsis on an ellipse,
+/// from Kepler's equation: E from tan(E/2) = sqrt((1-e)/(1+e)) tan(nu/2),
+/// M = E - e sin E, t = (pi - M) / n with n = sqrt(mu / a^3), M in [0, 2 pi).
+fn time_to_apoapsis_s(radius_m: f64, speed_m_s: f64, fpa_deg: f64) -> f64 {
+    let el = elements_from_state(EARTH_MU, radius_m, speed_m_s, fpa_deg);
+    let (a, e) = (el.sma_m, el.ecc);
+    let nu = el.true_anomaly_deg.to_radians();
+    let ecc_anom = 2.0 * (((1.0 - e) / (1.0 + e)).sqrt() * (0.5 * nu).tan()).atan();
+    let m = (ecc_anom - e * ecc_anom.sin()).rem_euclid(2.0 * PI);
+    let n = (EARTH_MU / (a * a * a)).sqrt();
+    (PI - m).rem_euclid(2.0 * PI) / n
+}
+
+/// Issue 14, item 4: the shipped 45 min coast to a 1200 km apoapsis. The
+/// descending root's periapsis is 4165 km under the surface, which it meets
+/// 411 km downrange, long before apoapsis: only the ascending root is an
+/// answer.
+#[test]
+fn coast_case_keeps_only_the_root_that_reaches_apoapsis_first() {
+    let doc = solve_json(&["--case", &case_path("coast-to-apoapsis.toml")]);
+    let sols = solutions(&doc);
+    assert_eq!(sols.len(), 1, "{doc}");
+    let s = &sols[0];
+    assert_eq!(s["branch"], "ascending");
+    let r = EARTH_R + 220e3;
+    let (v, g) = (num(s, "/speed_m_s"), num(s, "/flight_path_angle_deg"));
+    assert_relative_eq!(
+        time_to_apoapsis_s(r, v, g),
+        45.0 * 60.0,
+        max_relative = 1e-9
+    );
+    let el = elements_from_state(EARTH_MU, r, v, g);
+    assert!(el.periapsis_radius_m > EARTH_R, "{el:?}");
+    assert_relative_eq!(
+        el.apoapsis_radius_m.unwrap(),
+        EARTH_R + 1200e3,
+        max_relative = 1e-10
+    );
+    assert!(warnings(&doc).is_empty(), "{:?}", warnings(&doc));
+}
+
+/// Issue 14, item 4: a coast to periapsis climbing at 30 deg from 300 km has
+/// one root (2.53 km/s), a lob whose periapsis is under the surface: it
+/// meets the ground before periapsis, so the target is infeasible (exit 3)
+/// and the line says where.
+#[test]
+fn coast_target_whose_every_root_meets_the_surface_first_is_infeasible() {
+    let r = run(&[
+        "solve",
+        "--burnout-alt",
+        "300",
+        "--fpa",
+        "30",
+        "--time-to-periapsis",
+        "20min",
+    ]);
+    assert_eq!(r.code, Some(3), "{}", r.stdout);
+    assert!(r.stdout.is_empty());
+    assert_eq!(r.stderr.lines().count(), 1, "{}", r.stderr);
+    let line = r.stderr.trim();
+    assert!(
+        line.starts_with("error: every solution meets the surface before periapsis"),
+        "{line}"
+    );
+    // The root it names, checked here: the surface crossing from the conic
+    // equation, and periapsis 360 deg - nu downrange.
+    let v = number_after(line, "(speed ");
+    let rb = EARTH_R + 300e3;
+    let el = elements_from_state(EARTH_MU, rb, v, 30.0);
+    assert!(el.periapsis_radius_m < EARTH_R);
+    let p = el.periapsis_radius_m * (1.0 + el.ecc);
+    assert_relative_eq!(
+        number_after(line, ") meets the surface "),
+        descending_crossing_deg(p, el.ecc, EARTH_R) - el.true_anomaly_deg,
+        max_relative = 1e-8
+    );
+    assert_relative_eq!(
+        number_after(line, "periapsis is "),
+        360.0 - el.true_anomaly_deg,
+        max_relative = 1e-8
+    );
+    // And that speed does meet the target: Kepler's equation, to periapsis
+    // t = (2 pi - M) / n.
+    let nu = el.true_anomaly_deg.to_radians();
+    let e = el.ecc;
+    let ecc_anom = 2.0 * (((1.0 - e) / (1.0 + e)).sqrt() * (0.5 * nu).tan()).atan();
+    let m = (ecc_anom - e * ecc_anom.sin()).rem_euclid(2.0 * PI);
+    let n = (EARTH_MU / el.sma_m.powi(3)).sqrt();
+    // The speed is printed to 10 digits.
+    assert_relative_eq!((2.0 * PI - m) / n, 1200.0, max_relative = 1e-7);
+}
+
+/// Issue 14, item 4: only coast targets are affected. An element pair whose
+/// descending solution has its periapsis under the surface is still a
+/// (warned) solution, at the vis-viva speed.
+#[test]
+fn descending_element_pair_under_the_surface_is_still_a_warned_solution() {
+    let doc = solve_json(&[
+        "--burnout-alt",
+        "250",
+        "--periapsis-radius",
+        "6000km",
+        "--apoapsis-alt",
+        "800",
+    ]);
+    let sols = solutions(&doc);
+    assert_eq!(sols.len(), 2);
+    // Vis-viva: v^2 = mu (2/r - 2/(rp + ra)).
+    let (r, rp, ra) = (EARTH_R + 250e3, 6_000e3, EARTH_R + 800e3);
+    let v = (EARTH_MU * (2.0 / r - 2.0 / (rp + ra))).sqrt();
+    for s in sols {
+        assert_relative_eq!(num(s, "/speed_m_s"), v, max_relative = 1e-12);
+        let w = s["warnings"][0].as_str().unwrap();
+        let b = s["branch"].as_str().unwrap();
+        assert!(w.starts_with(&format!("suborbital ({b})")), "{w}");
+    }
+}
+
+/// Issue 14, item 4: a row whose numerical solve did not converge proves
+/// nothing about the target: its status is `invalid`, not `infeasible`
+/// (a single solve still exits 3). Half a period cannot be 1 s, so the
+/// least-squares search for these two coast times cannot converge.
+#[test]
+fn non_convergence_rows_are_invalid_not_infeasible() {
+    let r = run(&[
+        "solve",
+        "--burnout-alt",
+        "200",
+        "--time-to-apoapsis",
+        "10min",
+        "--time-to-periapsis",
+        "601s",
+    ]);
+    assert_eq!(r.code, Some(3));
+    assert!(
+        r.stderr.starts_with("error: no convergence"),
+        "{}",
+        r.stderr
+    );
+    let r = run(&[
+        "scan",
+        "--burnout-alt",
+        "200",
+        "--time-to-apoapsis",
+        "10min",
+        "--time-to-periapsis",
+        "601s..602s:1s",
+        "--format",
+        "json",
+    ]);
+    assert_eq!(r.code, Some(3), "{}", r.stderr);
+    let doc: Value = serde_json::from_str(&r.stdout).unwrap();
+    assert_eq!(doc["summary"]["invalid"], 2);
+    assert_eq!(doc["summary"]["infeasible"], 0);
+    for row in doc["rows"].as_array().unwrap() {
+        assert_eq!(row["status"], "invalid", "{row}");
+    }
+    let dir = tempfile::tempdir().unwrap();
+    let input = dir.path().join("in.csv");
+    std::fs::write(
+        &input,
+        "id,burnout-alt,time-to-apoapsis,time-to-periapsis\nx,200,10min,601s\n",
+    )
+    .unwrap();
+    let r = run(&["batch", input.to_str().unwrap()]);
+    assert_eq!(r.code, Some(3), "{}", r.stderr);
+    let mut rd = csv::Reader::from_reader(r.stdout.as_bytes());
+    let h = rd.headers().unwrap().clone();
+    let rec = rd.records().next().unwrap().unwrap();
+    let status = h.iter().position(|c| c == "status").unwrap();
+    assert_eq!(&rec[status], "invalid");
 }
