@@ -239,6 +239,63 @@ fn coast_target_whose_every_root_meets_the_surface_first_is_infeasible() {
     assert_relative_eq!((2.0 * PI - m) / n, 1200.0, max_relative = 1e-7);
 }
 
+fn scan_json(args: &[&str]) -> Value {
+    let mut all = vec!["scan"];
+    all.extend_from_slice(args);
+    all.extend_from_slice(&["--format", "json"]);
+    let r = run(&all);
+    assert_eq!(r.code, Some(0), "{all:?}: {}", r.stderr);
+    serde_json::from_str(&r.stdout).unwrap()
+}
+
+/// Issue 14, item 4, the scan: no row of the coast scan is a root that falls
+/// through the planet, and the minimum is no longer the radial-fall limit
+/// (3.95 km/s at fpa -89.87 deg).
+#[test]
+fn coast_scan_minimum_is_not_the_fall_through_the_planet() {
+    let doc = scan_json(&[
+        "--burnout-alt",
+        "220",
+        "--apoapsis-alt",
+        "1200",
+        "--time-to-apoapsis",
+        "5min..50min:5min",
+    ]);
+    let rows = doc["rows"].as_array().unwrap();
+    let r = EARTH_R + 220e3;
+    let mut ok = 0;
+    for row in rows.iter().filter(|x| x["status"] == "ok") {
+        ok += 1;
+        let (v, g) = (num(row, "/speed_m_s"), num(row, "/flight_path_angle_deg"));
+        // Each row meets its coast time (Kepler's equation) ...
+        assert_relative_eq!(
+            time_to_apoapsis_s(r, v, g),
+            num(row, "/time_to_apoapsis_s"),
+            max_relative = 1e-9
+        );
+        // ... and none is a descending root through the planet: a descending
+        // burnout passes periapsis before apoapsis.
+        if g < 0.0 {
+            assert!(num(row, "/periapsis_radius_m") >= EARTH_R, "{row}");
+        }
+    }
+    assert_eq!(ok, 9);
+    let min = &doc["summary"]["minimum"];
+    // The least speed over the rows that reach an orbit: the 2400 s row
+    // (the ascending rows before it are suborbital, item 5).
+    let row_2400 = rows
+        .iter()
+        .find(|x| x["time_to_apoapsis_s"] == 2400 && x["status"] == "ok")
+        .unwrap();
+    assert_relative_eq!(
+        num(min, "/speed_m_s"),
+        num(row_2400, "/speed_m_s"),
+        max_relative = 1e-15
+    );
+    assert!(num(min, "/speed_m_s") > 7_500.0);
+    assert_eq!(num(min, "/suborbital_neighbour/time_to_apoapsis_s"), 2100.0);
+}
+
 /// Issue 14, item 4: only coast targets are affected. An element pair whose
 /// descending solution has its periapsis under the surface is still a
 /// (warned) solution, at the vis-viva speed.
@@ -318,4 +375,154 @@ fn non_convergence_rows_are_invalid_not_infeasible() {
     let rec = rd.records().next().unwrap().unwrap();
     let status = h.iter().position(|c| c == "status").unwrap();
     assert_eq!(&rec[status], "invalid");
+}
+
+/// Required speed for an apoapsis target `ra` from radius `r` at flight-path
+/// angle `g`: energy and angular momentum conserved between burnout and
+/// apoapsis (vis-viva, r v cos g = ra v_a) give
+/// v^2 = 2 mu ra (ra - r) / (r (ra^2 - r^2 cos^2 g)).
+fn apoapsis_speed(r: f64, ra: f64, g_deg: f64) -> f64 {
+    let c = g_deg.to_radians().cos();
+    (2.0 * EARTH_MU * ra * (ra - r) / (r * (ra * ra - r * r * c * c))).sqrt()
+}
+
+/// Issue 14, item 5: the extremes of a flight-path-angle scan are taken over
+/// the rows that reach an orbit; `--extremes-include-suborbital` counts the
+/// others too.
+#[test]
+fn scan_extremes_leave_out_suborbital_rows_unless_asked() {
+    let args = [
+        "--burnout-alt",
+        "250",
+        "--apoapsis-alt",
+        "800",
+        "--fpa=-10deg..10deg:1.5deg",
+    ];
+    let (r, ra) = (EARTH_R + 250e3, EARTH_R + 800e3);
+    let doc = scan_json(&args);
+    let rows = doc["rows"].as_array().unwrap();
+    let suborbital = rows
+        .iter()
+        .filter(|x| x["message"].as_str().unwrap().starts_with("suborbital"))
+        .count();
+    assert_eq!(suborbital, 10);
+    assert_eq!(doc["summary"]["suborbital_not_counted"], 10);
+    let min = &doc["summary"]["minimum"];
+    assert_eq!(num(min, "/at/fpa_deg"), -2.5);
+    assert_eq!(min["branches"], serde_json::json!(["descending"]));
+    assert_relative_eq!(
+        num(min, "/speed_m_s"),
+        apoapsis_speed(r, ra, -2.5),
+        max_relative = 1e-12
+    );
+    // Its periapsis is above the surface; the next grid point's is not.
+    let el = elements_from_state(EARTH_MU, r, num(min, "/speed_m_s"), -2.5);
+    assert!(el.periapsis_radius_m > EARTH_R);
+    let el4 = elements_from_state(EARTH_MU, r, apoapsis_speed(r, ra, -4.0), -4.0);
+    assert!(el4.periapsis_radius_m < EARTH_R);
+    assert_eq!(num(min, "/suborbital_neighbour/fpa_deg"), -4.0);
+
+    let mut with = args.to_vec();
+    with.push("--extremes-include-suborbital");
+    let doc = scan_json(&with);
+    assert_eq!(doc["summary"]["suborbital_not_counted"], 0);
+    let min = &doc["summary"]["minimum"];
+    assert_eq!(num(min, "/at/fpa_deg"), -10.0);
+    assert_relative_eq!(
+        num(min, "/speed_m_s"),
+        apoapsis_speed(r, ra, -10.0),
+        max_relative = 1e-12
+    );
+    // The table says what was left out.
+    let t = run(&["scan", args[0], args[1], args[2], args[3], args[4]]);
+    assert!(
+        t.stdout
+            .contains("10 suborbital rows not counted (--extremes-include-suborbital counts them)"),
+        "{}",
+        t.stdout
+    );
+}
+
+/// Issue 14, item 5: an extreme at an apsis is named as every apsis is
+/// (ascending), not by the side Brent's search landed on by rounding.
+#[test]
+fn extreme_at_an_apsis_is_labelled_ascending() {
+    // Along the flight-path angle: the greatest speed for an apoapsis
+    // target is at fpa 0, v^2 = 2 mu ra / (r (r + ra)) (vis-viva at
+    // periapsis), between grid points -1 and 0.5 deg.
+    let (r, ra) = (EARTH_R + 250e3, EARTH_R + 800e3);
+    let doc = scan_json(&[
+        "--burnout-alt",
+        "250",
+        "--apoapsis-alt",
+        "800",
+        "--fpa=-10deg..10deg:1.5deg",
+    ]);
+    let max = &doc["summary"]["maximum"];
+    assert_eq!(max["branches"], serde_json::json!(["ascending"]));
+    assert_eq!(num(max, "/at/fpa_deg"), 0.0);
+    let v0 = (2.0 * EARTH_MU * ra / (r * (r + ra))).sqrt();
+    assert_relative_eq!(num(max, "/speed_m_s"), v0, max_relative = 1e-12);
+
+    // Along a coast time: the greatest speed is burnout at periapsis, where
+    // the time to apoapsis is half a period, pi sqrt(a^3 / mu).
+    let r = EARTH_R + 220e3;
+    let ra = EARTH_R + 1200e3;
+    let doc = scan_json(&[
+        "--burnout-alt",
+        "220",
+        "--apoapsis-alt",
+        "1200",
+        "--time-to-apoapsis",
+        "40min..50min:5min",
+    ]);
+    let max = &doc["summary"]["maximum"];
+    assert_eq!(max["branches"], serde_json::json!(["ascending"]));
+    let a: f64 = 0.5 * (r + ra);
+    assert_relative_eq!(
+        num(max, "/at/time_to_apoapsis_s"),
+        PI * (a.powi(3) / EARTH_MU).sqrt(),
+        max_relative = 1e-6
+    );
+    // Vis-viva at periapsis.
+    let vp = (EARTH_MU * (2.0 / r - 1.0 / a)).sqrt();
+    assert_relative_eq!(num(max, "/speed_m_s"), vp, max_relative = 1e-10);
+}
+
+/// Issue 14, item 5: a scan whose every row meets the surface has no
+/// extremes over orbital rows, and says so rather than "no grid point
+/// solved"; the flag counts them (vis-viva with angular momentum gives the
+/// least speed at the lowest apoapsis).
+#[test]
+fn scan_of_only_suborbital_rows_has_no_extremes_and_says_why() {
+    let args = [
+        "scan",
+        "--burnout-alt",
+        "45",
+        "--fpa",
+        "84",
+        "--apoapsis-alt",
+        "200..300:50",
+    ];
+    let t = run(&args);
+    assert_eq!(t.code, Some(0), "{}", t.stderr);
+    assert!(
+        t.stdout.contains(
+            "every solved row is suborbital (meets the surface): no minimum or maximum speed"
+        ),
+        "{}",
+        t.stdout
+    );
+    let doc = scan_json(&args[1..]);
+    assert!(doc["summary"]["minimum"].is_null());
+    assert_eq!(doc["summary"]["suborbital_not_counted"], 3);
+    let mut with = args[1..].to_vec();
+    with.push("--extremes-include-suborbital");
+    let doc = scan_json(&with);
+    let min = &doc["summary"]["minimum"];
+    assert_relative_eq!(
+        num(min, "/speed_m_s"),
+        apoapsis_speed(EARTH_R + 45e3, EARTH_R + 200e3, 84.0),
+        max_relative = 1e-12
+    );
 }
