@@ -87,6 +87,20 @@ searched over the whole physical domain; roots beyond FREE_RADIUS_MAX body
 radii (the tool's documented search range) are reported as optional
 'beyond documented range' roots.
 
+The surface. A root whose path meets the body's surface before the apsis
+its target aims at (apoapsis for time and angle to apoapsis, periapsis for
+time to periapsis) is no solution for that target: the tool must not return
+it, and when every root is of that kind it must exit 3 saying that every
+solution meets the surface first. Derived here from the conic equation
+r(nu) = p / (1 + e cos nu), whose radius grows with nu on (0, 180) deg and
+falls on (180, 360) deg: after burnout nu grows, so on the way to periapsis
+the radius falls (after climbing over apoapsis when ascending) to rp and
+passes the surface radius R on the way iff rp < R; on the way to apoapsis an
+ascending burnout (fpa > 0) only climbs from r >= R and never meets it, and
+a descending one first falls to periapsis, meeting it iff rp < R. Roots with
+rp within 1e-9 relative of R are optional (the verdict is a matter of
+rounding).
+
 Exits 1 on any disagreement, printing the command line and why.
 """
 import json
@@ -250,6 +264,20 @@ def self_test():
 def target_value(kind, c):
     return c[{"time-to-apoapsis": "t_apo", "time-to-periapsis": "t_peri",
               "angle-to-apoapsis": "angle_apo"}[kind]]
+
+
+def meets_surface_first(P, kind, out_vals):
+    """True when the root's path meets the surface before the apsis the
+    target aims at, None when that is a matter of rounding (rp within 1e-9
+    relative of R), else False (see the module docstring)."""
+    r, v, fpa_deg = out_vals
+    rp = elements(P["mu"], r, v, mp.radians(fpa_deg))["periapsis_radius"]
+    R = P["R"]
+    if abs(rp - R) <= REL * R:
+        return None
+    if rp > R:
+        return False
+    return kind == "time-to-periapsis" or fpa_deg < 0
 
 
 def geom(center, direction, lo_exp, hi_exp, n):
@@ -797,48 +825,46 @@ def verify_state(P, ptype, kind, r_t, v_t, fpa_t):
     return ""
 
 
-def run_case(case, binary):
-    P, ptype, kind = case["P"], case["ptype"], case["kind"]
-    prob = Problem(ptype, P, kind)
-    res = {"idx": case["idx"], "regime": case["regime"], "cmd": " ".join(shlex.quote(a) for a in
-                                                                           [binary] + case["args"]),
-           "problems": [], "ref": [], "found": 0, "missed": 0, "extra": 0, "ill": 0,
-           "max_rel": mp.mpf(0), "ill_ratio": mp.mpf(0), "ntool": 0, "notes": []}
-    try:
-        proc = subprocess.run([binary] + case["args"], capture_output=True, text=True, timeout=120)
-        rc, out, err = proc.returncode, proc.stdout, proc.stderr.strip()
-    except subprocess.TimeoutExpired:
-        rc, out, err = None, "", "timeout after 120 s"
-    # reference
-    scale = abs(P["T"]) + 1
-    roots, near, nsamp = find_roots(prob, scale)
-    res["samples"] = nsamp
-    refs = []
-    for u in roots:
-        out_vals = prob.output(u)
-        floors, noise = root_floor(prob, u)
-        tol = [max(REL * abs(out_vals[i]), FLOOR_FACTOR * floors[i]) for i in range(3)]
-        ill = any(floors[i] > REL * abs(out_vals[i]) for i in range(3))
-        refs.append({"u": u, "out": out_vals, "tol": tol, "ill": ill, "optional": False,
-                     "noise": noise})
-    if ptype == "D":
-        for rf in refs:
-            if rf["out"][0] > FREE_RADIUS_MAX * P["R"]:
-                rf["optional"] = rf["beyond"] = True
-    # roots that only exist within the double-precision noise of the residual
-    for i in range(len(refs) - 1):
-        a, b = refs[i]["u"], refs[i + 1]["u"]
-        fm = prob.residual((a + b) / 2)
-        if fm is not None and abs(fm) <= 10 * max(refs[i]["noise"], refs[i + 1]["noise"]):
-            refs[i]["optional"] = refs[i + 1]["optional"] = True
-    for u, fu in near:
-        _floors, noise = root_floor(prob, u)
-        if abs(fu) <= 10 * noise:
-            out_vals = prob.output(u)
-            floors, _ = root_floor(prob, u)
-            tol = [max(REL * abs(out_vals[i]), FLOOR_FACTOR * floors[i]) for i in range(3)]
-            refs.append({"u": u, "out": out_vals, "tol": tol, "ill": True, "optional": True,
-                         "noise": noise})
+POINT_RADIUS = mp.mpf("0.001")
+
+
+def point_mass_args(case):
+    """The case's command line about a point mass of the same mu: the body
+    given as --mu and a 1 mm --radius, every altitude given as the radius
+    (the double nearest the reference's exact R + altitude)."""
+    P, out, it = case["P"], [], iter(case["args"])
+    for a in it:
+        if a == "--body":
+            next(it)
+            out += ["--mu", f"{float(P['mu'])!r}m3/s2", "--radius", f"{float(POINT_RADIUS)!r}m"]
+            continue
+        name, _, text = a.partition("=")
+        if name in ("--burnout-alt", "--periapsis-alt", "--apoapsis-alt"):
+            if not text:
+                next(it)
+            key = "r" if name == "--burnout-alt" else "elem"
+            out += [name.replace("-alt", "-radius"), f"{float(P[key])!r}m"]
+            continue
+        out.append(a)
+    return out
+
+
+def judge(res, refs, P, ptype, kind, rc, out, err):
+    """Compares the tool's answer (exit code, stdout, stderr) with the
+    reference roots `refs` for the body of surface radius P["R"], recording
+    problems and counts in `res`."""
+    # roots whose path meets the surface before the targeted apsis are no
+    # solutions: kept apart, the tool must not return them
+    through = []
+    for rf in refs:
+        verdict = meets_surface_first(P, kind, rf["out"])
+        if verdict is None:
+            rf["optional"] = True
+        elif verdict:
+            through.append(rf)
+    refs = [rf for rf in refs if not any(rf is t for t in through)]
+    res["through"] = [f"r={mp.nstr(rf['out'][0], 17)} v={mp.nstr(rf['out'][1], 17)} "
+                      f"fpa={mp.nstr(rf['out'][2], 17)}" for rf in through]
     res["ref"] = [f"#{i + 1} r={mp.nstr(rf['out'][0], 17)} v={mp.nstr(rf['out'][1], 17)} "
                   f"fpa={mp.nstr(rf['out'][2], 17)}" + (" (ill-conditioned)" if rf["ill"] else "")
                   + ((" (optional: beyond the documented search range)" if rf.get("beyond") else
@@ -861,6 +887,10 @@ def run_case(case, binary):
     elif rc == 3:
         if required:
             res["problems"].append(f"exit 3 although {len(required)} root(s) exist: {err}")
+        elif through and "every solution meets the surface before" not in err and \
+                any(not rf["ill"] for rf in through):
+            res["problems"].append(
+                f"exit 3, but not for the surface although the only roots meet it first: {err}")
     else:
         res["problems"].append(f"exit {rc}: {err}")
     res["ntool"] = len(tool)
@@ -931,7 +961,9 @@ def run_case(case, binary):
             ratios = [max(abs(r_t - rf["out"][0]) / rf["tol"][0], abs(v_t - rf["out"][1]) / rf["tol"][1],
                           abs(fpa_t - rf["out"][2]) / rf["tol"][2]) for rf in refs]
             i = min(range(len(refs)), key=lambda i: ratios[i]) if refs else None
-            if i is not None and ratios[i] <= 1:
+            if any(ok(rf, tl) for rf in through):
+                verdict = "its path meets the surface before the targeted apsis: not a solution"
+            elif i is not None and ratios[i] <= 1:
                 verdict = f"a duplicate of reference root #{i + 1}, already matched by another tool root"
             elif i is not None and ratios[i] < 1e6:
                 verdict = (f"near reference root #{i + 1} but off by {mp.nstr(ratios[i], 3)} times the allowance"
@@ -960,6 +992,76 @@ def run_case(case, binary):
         if not (well_missed or stray or bad_exit):
             res["ok"] = True
             res["ill_posed"] = True
+
+
+def run_case(case, binary):
+    P, ptype, kind = case["P"], case["ptype"], case["kind"]
+    prob = Problem(ptype, P, kind)
+    res = {"idx": case["idx"], "regime": case["regime"], "cmd": " ".join(shlex.quote(a) for a in
+                                                                           [binary] + case["args"]),
+           "problems": [], "ref": [], "found": 0, "missed": 0, "extra": 0, "ill": 0,
+           "max_rel": mp.mpf(0), "ill_ratio": mp.mpf(0), "ntool": 0, "notes": []}
+    try:
+        proc = subprocess.run([binary] + case["args"], capture_output=True, text=True, timeout=120)
+        rc, out, err = proc.returncode, proc.stdout, proc.stderr.strip()
+    except subprocess.TimeoutExpired:
+        rc, out, err = None, "", "timeout after 120 s"
+    # reference
+    scale = abs(P["T"]) + 1
+    roots, near, nsamp = find_roots(prob, scale)
+    res["samples"] = nsamp
+    refs = []
+    for u in roots:
+        out_vals = prob.output(u)
+        floors, noise = root_floor(prob, u)
+        tol = [max(REL * abs(out_vals[i]), FLOOR_FACTOR * floors[i]) for i in range(3)]
+        ill = any(floors[i] > REL * abs(out_vals[i]) for i in range(3))
+        refs.append({"u": u, "out": out_vals, "tol": tol, "ill": ill, "optional": False,
+                     "noise": noise})
+    if ptype == "D":
+        for rf in refs:
+            if rf["out"][0] > FREE_RADIUS_MAX * P["R"]:
+                rf["optional"] = rf["beyond"] = True
+    # roots that only exist within the double-precision noise of the residual
+    for i in range(len(refs) - 1):
+        a, b = refs[i]["u"], refs[i + 1]["u"]
+        fm = prob.residual((a + b) / 2)
+        if fm is not None and abs(fm) <= 10 * max(refs[i]["noise"], refs[i + 1]["noise"]):
+            refs[i]["optional"] = refs[i + 1]["optional"] = True
+    for u, fu in near:
+        _floors, noise = root_floor(prob, u)
+        if abs(fu) <= 10 * noise:
+            out_vals = prob.output(u)
+            floors, _ = root_floor(prob, u)
+            tol = [max(REL * abs(out_vals[i]), FLOOR_FACTOR * floors[i]) for i in range(3)]
+            refs.append({"u": u, "out": out_vals, "tol": tol, "ill": True, "optional": True,
+                         "noise": noise})
+    judge(res, [dict(rf) for rf in refs], P, ptype, kind, rc, out, err)
+    # A root that meets the surface first is no solution about the real body,
+    # but the root finder must still find it: fixed-radius problems (A, B, C)
+    # are run again about a point mass of the body's mu (radius 1 mm, every
+    # radius given as a radius), where the same roots must all be returned.
+    # A free radius (D) is searched from the surface up, so has no such twin.
+    if res["through"] and ptype != "D":
+        pargs = point_mass_args(case)
+        try:
+            proc = subprocess.run([binary] + pargs, capture_output=True, text=True, timeout=120)
+            rc2, out2, err2 = proc.returncode, proc.stdout, proc.stderr.strip()
+        except subprocess.TimeoutExpired:
+            rc2, out2, err2 = None, "", "timeout after 120 s"
+        twin = {"problems": [], "found": 0, "missed": 0, "extra": 0, "ill": 0,
+                "max_rel": mp.mpf(0), "ill_ratio": mp.mpf(0), "ntool": 0}
+        judge(twin, [dict(rf) for rf in refs], dict(P, R=POINT_RADIUS), ptype, kind, rc2, out2, err2)
+        res["twin"] = {"found": twin["found"], "ref": twin["nref"]}
+        if twin["problems"]:
+            # a failure fails the case; disagreements on ill-conditioned
+            # roots only (--report-ill-conditioned) are shown as ILL
+            if not twin["ok"]:
+                res["ok"] = False
+            elif res["ok"]:
+                res["ill_posed"] = True
+            res["problems"].append("point-mass run: " + " ".join(shlex.quote(x) for x in [binary] + pargs))
+            res["problems"].extend("point-mass run: " + x for x in twin["problems"])
     res["max_rel"] = float(res["max_rel"])
     res["ill_ratio"] = float(res["ill_ratio"])
     res["P"] = {k: mp.nstr(v, 20) for k, v in P.items()}
@@ -1021,6 +1123,8 @@ def main(argv):
             print(f"{'FAIL' if not res['ok'] else 'ILL ' if res.get('ill_posed') else 'ok  '} [case {res['idx']}: {res['regime']}, {case['ptype']}, {case['kind']}] "
                   f"{res['cmd']}")
             print(f"     reference roots (r m, v m/s, fpa deg): {'; '.join(res['ref']) or 'none'}")
+            if res["through"]:
+                print(f"     roots that meet the surface first (no solutions): {'; '.join(res['through'])}")
             for p in res["problems"]:
                 print(f"     - {p}")
         if not res["ok"]:
@@ -1039,6 +1143,10 @@ def main(argv):
     if ill_posed:
         print(f"{ill_posed} case(s) disagree only on ill-conditioned roots (marked ILL above): "
               "reported, not failed (--report-ill-conditioned)")
+    twins = [r["twin"] for r in results if "twin" in r]
+    if twins:
+        print(f"{len(twins)} case(s) with roots that meet the surface first, run again about a point mass: "
+              f"{sum(t['found'] for t in twins)} of {sum(t['ref'] for t in twins)} reference roots found there")
     print(f"{len(results) - failed} passed, {failed} failed")
     return 1 if failed else 0
 

@@ -131,8 +131,16 @@ impl Error {
         }
     }
 
-    /// Short machine tag for the error's class, as used in batch `status`.
+    /// Short machine tag for a row that failed with this error, as used in
+    /// the `status` of scan and batch rows: `infeasible` when no trajectory
+    /// meets the target, `invalid` when the row could not be answered (its
+    /// input, an I/O failure, or a numerical solve that did not converge:
+    /// that proves nothing about the target, so it is not `infeasible`, though
+    /// a single solve still exits 3 for it, see [`Error::class`]).
     pub fn status(&self) -> &'static str {
+        if let Error::NoConvergence { .. } = self {
+            return "invalid";
+        }
         match self.class() {
             ErrorClass::Usage | ErrorClass::Io => "invalid",
             ErrorClass::Infeasible => "infeasible",
@@ -411,6 +419,19 @@ mod tests {
         assert!(s.contains("6371000 m") && s.contains("6578000 m"), "{s}");
         assert!(!s.contains('\n'));
         assert_eq!(e.class(), ErrorClass::Infeasible);
+    }
+
+    #[test]
+    fn non_convergence_is_an_invalid_row_but_keeps_exit_class_infeasible() {
+        let e = Error::NoConvergence {
+            method: "trust-region (argmin)".into(),
+            iterations: 7,
+            residual: 0.25,
+            termination: "max iterations".into(),
+        };
+        assert_eq!(e.status(), "invalid");
+        assert_eq!(e.class(), ErrorClass::Infeasible);
+        assert_eq!(Error::Infeasible("x".into()).status(), "infeasible");
     }
 
     #[test]

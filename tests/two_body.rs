@@ -261,9 +261,10 @@ fn solver_answer_for_a_coast_time_reaches_apoapsis_at_that_time() {
     use burnout::{solve, Problem};
     let body = Body::from_name("earth").unwrap();
     let mu = body.mu_m3_s2;
+    let surface_m = body.radius_m;
     let ra = body.radius_m + 1_200e3;
     let tof = 45.0 * 60.0;
-    let problem = Problem {
+    let mut problem = Problem {
         burnout_radius_m: Some(body.radius_m + 220e3),
         targets: vec![
             Target::new(TargetQuantity::ApoapsisRadius, ra),
@@ -276,12 +277,34 @@ fn solver_answer_for_a_coast_time_reaches_apoapsis_at_that_time() {
         above_alt_m: None,
         body,
     };
-    let solved = solve(&problem).unwrap();
+    // The two-body conics have two roots, an ascending and a descending one
+    // (seen about a body of Earth's mu shrunk to 1 km, which nothing
+    // meets). The descending one passes its periapsis on the way: the
+    // integration finds that apsis under the Earth's surface before the
+    // 45 min are up, so about the real Earth it is no solution and only the
+    // ascending root is reported.
+    let body = problem.body.clone();
+    problem.body = Body::custom(mu, 1e3).unwrap();
+    let conics = solve(&problem).unwrap();
     assert_eq!(
-        solved.solutions.len(),
+        conics.solutions.len(),
         2,
         "one ascending and one descending root"
     );
+    let down = conics
+        .solutions
+        .iter()
+        .find(|s| s.state.flight_path_angle_rad < 0.0)
+        .unwrap();
+    let st = &down.state;
+    let y0 = burnout_state(st.radius_m, st.speed_m_s, st.flight_path_angle_rad);
+    let (_, apsides) = propagate(mu, y0, tof, 1e-13);
+    let lowest = apsides.iter().copied().fold(f64::INFINITY, f64::min);
+    assert!(lowest < surface_m, "lowest apsis {lowest} m");
+    problem.body = body;
+    let solved = solve(&problem).unwrap();
+    assert_eq!(solved.solutions.len(), 1, "only the ascending root");
+    assert!(solved.solutions[0].state.flight_path_angle_rad > 0.0);
     for s in &solved.solutions {
         let st = &s.state;
         let y0 = burnout_state(st.radius_m, st.speed_m_s, st.flight_path_angle_rad);

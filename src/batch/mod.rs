@@ -23,7 +23,7 @@
 pub mod reader;
 
 use crate::columns::{given_name, sensitivity_columns, RESULT_COLUMNS, SITE_COLUMNS};
-use crate::error::{Error, ErrorClass};
+use crate::error::Error;
 use crate::input::keys::solve_input_kind;
 use crate::input::problem::{solve_inputs, Inputs};
 use crate::solve::problem::{kept, no_branch_message, BranchChoice};
@@ -407,22 +407,23 @@ impl Layout {
             counts.rows_written += rows;
             match class {
                 None => counts.solved += 1,
-                Some(ErrorClass::Infeasible) => counts.infeasible += 1,
-                Some(ErrorClass::Usage | ErrorClass::Io) => counts.invalid += 1,
+                Some("infeasible") => counts.infeasible += 1,
+                Some(_) => counts.invalid += 1,
             }
         }
         (buf, counts)
     }
 
     /// Writes the output rows of one record; returns `None` when it solved,
-    /// else the class of its failure, and the number of rows written.
+    /// else the status of its failure row ([`Error::status`]), and the
+    /// number of rows written.
     fn solve_row<S: BatchSink>(
         &self,
         sink: &S,
         r: &RawRecord,
         opts: &BatchOptions,
         buf: &mut Vec<u8>,
-    ) -> (Option<ErrorClass>, u64) {
+    ) -> (Option<&'static str>, u64) {
         let width = self.columns.len();
         // The input part of every output row: the cells as read (bytes,
         // invalid UTF-8 kept), padded or cut to the header's width.
@@ -432,7 +433,7 @@ impl Layout {
         let fail = |buf: &mut Vec<u8>, e: &Error| {
             buf.extend_from_slice(&prefix);
             sink.failure(e.status(), &e.to_string(), opts.sensitivities, site, buf);
-            (Some(e.class()), 1)
+            (Some(e.status()), 1)
         };
         match self.problem_of(r) {
             Err(e) => fail(buf, &e),

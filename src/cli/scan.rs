@@ -55,6 +55,10 @@ pub struct Args {
     /// Branches to keep.
     #[arg(long, value_enum, default_value_t = BranchArg::Both)]
     branch: BranchArg,
+    /// Let suborbital rows (solutions that meet the surface) be the minimum or maximum
+    /// required speed; by default the extremes are taken over the other rows.
+    #[arg(long)]
+    extremes_include_suborbital: bool,
     /// Units of the human table.
     #[arg(long, value_enum, default_value_t = UnitsArg::Si)]
     units: UnitsArg,
@@ -144,6 +148,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
         branch: args.branch.into(),
         parallel: true,
         samples: plot_file.is_some(),
+        extremes_include_suborbital: args.extremes_include_suborbital,
     };
     let writer = ScanWriter {
         format,

@@ -64,6 +64,28 @@ pub struct BurnoutState {
     pub conic: Conic,
 }
 
+impl BurnoutState {
+    /// Whether burnout is at an apsis: its radius equals the periapsis or
+    /// apoapsis radius within [`APSIS_TOLERANCE`] relative (the contract's
+    /// rule; such a state has no radial speed to speak of, and every apsis is
+    /// labelled ascending).
+    pub fn at_apsis(&self) -> bool {
+        let r = self.radius_m;
+        let near = |x: f64| (r - x).abs() <= APSIS_TOLERANCE * x;
+        near(self.conic.periapsis_radius_m()) || self.conic.apoapsis_radius_m().is_some_and(near)
+    }
+
+    /// The branch as labelled: [`Branch::Ascending`] at an apsis
+    /// ([`BurnoutState::at_apsis`]), else the state's own branch.
+    pub fn branch_label(&self) -> Branch {
+        if self.at_apsis() {
+            Branch::Ascending
+        } else {
+            self.branch
+        }
+    }
+}
+
 /// The branch a flight-path angle (rad) is on: descending below 0.
 pub fn branch_of(fpa_rad: f64) -> Branch {
     if fpa_rad < 0.0 {
@@ -92,4 +114,26 @@ pub fn forward_state(
         true_anomaly_rad: nu,
         conic,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_state_within_the_apsis_tolerance_is_labelled_ascending() {
+        // Circular speed sqrt(mu / r) at an angle of -1e-12 rad: a radial
+        // speed that is rounding only; the radius equals the periapsis to
+        // far below 1e-12 relative (r - rp ~ r e nu^2 / 2).
+        let (mu, r): (f64, f64) = (3.986004418e14, 6_778_137.0);
+        let v = (mu / r).sqrt() * 1.001;
+        let st = forward_state(mu, r, v, -1e-12).unwrap();
+        assert_eq!(st.branch, Branch::Descending);
+        assert!(st.at_apsis());
+        assert_eq!(st.branch_label(), Branch::Ascending);
+        // Half a degree down is on its way to periapsis: not an apsis.
+        let st = forward_state(mu, r, v, -0.5f64.to_radians()).unwrap();
+        assert!(!st.at_apsis());
+        assert_eq!(st.branch_label(), Branch::Descending);
+    }
 }

@@ -12,6 +12,9 @@ use crate::solve::problem::{Solution, SolutionView};
 pub fn warning_tag(w: &Warning) -> String {
     match w {
         Warning::Suborbital { .. } => "suborbital".to_string(),
+        Warning::PeriapsisBelowSurfaceNotReached { .. } => {
+            "periapsis below surface, not reached".to_string()
+        }
         Warning::LowPeriapsis { .. } => "low periapsis".to_string(),
         Warning::SearchNotExhaustive { .. } => "search not exhaustive".to_string(),
         Warning::IllConditioned => "ill-conditioned".to_string(),

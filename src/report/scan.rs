@@ -457,12 +457,22 @@ impl ScanWriter {
             report.infeasible,
             report.invalid
         )];
+        let left_out = report.suborbital_not_counted;
         match (&report.minimum, &report.maximum) {
             (Some(min), Some(max)) => {
                 lines.push(self.describe_extreme(plan, min, units));
                 lines.push(self.describe_extreme(plan, max, units));
             }
+            _ if left_out > 0 => lines.push(
+                "every solved row is suborbital (meets the surface): no minimum or maximum speed over the rows that do not (--extremes-include-suborbital counts them)".into(),
+            ),
             _ => lines.push("no grid point solved: no minimum or maximum speed".into()),
+        }
+        if left_out > 0 && report.minimum.is_some() {
+            lines.push(format!(
+                "extremes over the rows that do not meet the surface: {left_out} suborbital row{} not counted (--extremes-include-suborbital counts them)",
+                if left_out == 1 { "" } else { "s" }
+            ));
         }
         lines
     }
@@ -511,6 +521,13 @@ impl ScanWriter {
         if let Some(nb) = e.unsolved_neighbour_si {
             said.push(format!(
                 "at the edge of the solved region (the next grid point, {} {}, does not solve)",
+                a0.key,
+                show(a0.grid.kind(), nb, units)
+            ));
+        }
+        if let Some(nb) = e.suborbital_neighbour_si {
+            said.push(format!(
+                "at the edge of the orbital region (the next grid point, {} {}, is suborbital)",
                 a0.key,
                 show(a0.grid.kind(), nb, units)
             ));
@@ -577,6 +594,9 @@ impl ScanWriter {
                 "unsolved_neighbour": e.unsolved_neighbour_si.map(|v| {
                     serde_json::json!({plan.axes[0].column.clone(): plan.axes[0].grid.si_to_out(v)})
                 }),
+                "suborbital_neighbour": e.suborbital_neighbour_si.map(|v| {
+                    serde_json::json!({plan.axes[0].column.clone(): plan.axes[0].grid.si_to_out(v)})
+                }),
                 "grid": {"speed_m_s": e.grid_speed_m_s, "at": grid_at},
                 "refinement": e.refinement.as_ref().map(|r| serde_json::json!({
                     "method": "brent",
@@ -593,6 +613,7 @@ impl ScanWriter {
             "solved": report.solved,
             "infeasible": report.infeasible,
             "invalid": report.invalid,
+            "suborbital_not_counted": report.suborbital_not_counted,
             "minimum": extreme(&report.minimum),
             "maximum": extreme(&report.maximum),
         })

@@ -1,11 +1,26 @@
 //! The minimum and maximum required speed of a scan: found on the grid,
 //! then refined along the first swept input with Brent's method (argmin's
 //! `BrentOpt`) between the grid neighbours of the best point.
+//!
+//! Only solutions that count take part ([`counts`]): by default a
+//! suborbital solution (one that meets the surface) is a row of the table but
+//! not a candidate for the least or greatest speed, since it does not reach
+//! an orbit; [`super::ScanOptions::extremes_include_suborbital`] counts it.
 
 use super::plan::Plan;
 use super::point::required_speed;
+use super::ScanOptions;
 use crate::physics::state::Branch;
-use crate::solve::problem::{kept, BranchChoice};
+use crate::solve::feasibility::Warning;
+use crate::solve::problem::kept;
+
+/// Whether a solution with these warnings takes part in the extremes.
+pub(crate) fn counts(opts: &ScanOptions, warnings: &[Warning]) -> bool {
+    opts.extremes_include_suborbital
+        || !warnings
+            .iter()
+            .any(|w| matches!(w, Warning::Suborbital { .. }))
+}
 
 /// Minimum or maximum.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -69,6 +84,30 @@ pub struct Extreme {
     /// (along the first axis): that neighbour, SI. The extreme is then at
     /// the edge of the solved region.
     pub unsolved_neighbour_si: Option<f64>,
+    /// When the extreme is a grid point next to one whose kept solutions
+    /// are all suborbital, so do not count (along the first axis): that
+    /// neighbour, SI. The extreme is then at the edge of the orbital region.
+    pub suborbital_neighbour_si: Option<f64>,
+}
+
+/// What a point along the first axis gives the extremes.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Along {
+    /// The best counted speed, m/s, and the branches that need it.
+    Counted(f64, u8),
+    /// Kept solutions, every one suborbital (not counted).
+    SuborbitalOnly,
+    /// No kept solution.
+    Unsolved,
+}
+
+impl Along {
+    fn counted(self) -> Option<(f64, u8)> {
+        match self {
+            Along::Counted(v, bits) => Some((v, bits)),
+            _ => None,
+        }
+    }
 }
 
 #[derive(Debug, Clone, Copy)]
@@ -119,35 +158,56 @@ pub(crate) fn fold_extreme(cur: &mut Option<GridExtreme>, cand: GridExtreme, sig
 
 impl Plan {
     /// Solves at `x_si` on the first axis, the other axes at `si`: the best
-    /// kept speed (signed: lower is better) and the branches that need it.
-    fn speed_at(
-        &self,
-        branch: BranchChoice,
-        si: &[f64],
-        x_si: f64,
-        kind: ExtremeKind,
-    ) -> Option<(f64, u8)> {
+    /// counted speed (signed: lower is better) and the branches that need it.
+    fn speed_at(&self, opts: &ScanOptions, si: &[f64], x_si: f64, kind: ExtremeKind) -> Along {
         let mut point = si.to_vec();
         point[0] = x_si;
-        let solved = self.solve_si(&point, &mut self.scratch()).ok()?;
+        let Ok(solved) = self.solve_si(&point, &mut self.scratch()) else {
+            return Along::Unsolved;
+        };
         let mut best: Option<GridExtreme> = None;
-        for s in kept(&solved, branch) {
+        let mut any = false;
+        for s in kept(&solved, opts.branch) {
+            any = true;
+            if !counts(opts, &s.warnings) {
+                continue;
+            }
+            // A point between grid points can land within rounding of an
+            // apsis (Brent placing a stationary speed): its state is then
+            // labelled as apsis states are, not by the sign of a radial speed
+            // that is only rounding.
             fold_extreme(
                 &mut best,
                 GridExtreme {
                     speed: required_speed(&s.state, s.site.as_ref()),
                     idx: 0,
-                    branches: branch_bit(s.state.branch),
+                    branches: branch_bit(s.state.branch_label()),
                 },
                 kind.sign(),
             );
         }
-        best.map(|b| (b.speed, b.branches))
+        match best {
+            Some(b) => Along::Counted(b.speed, b.branches),
+            None if any => Along::SuborbitalOnly,
+            None => Along::Unsolved,
+        }
+    }
+
+    /// The first axis's value at which burnout is at an apsis (flight-path
+    /// angle exactly 0), when the first axis sets the flight-path angle.
+    fn apsis_on_first_axis(&self) -> Option<f64> {
+        match self.axes[0].key.as_str() {
+            "fpa" => Some(0.0),
+            // As the setter turns a zenith angle into a flight-path angle:
+            // 90 deg gives exactly 0.
+            "zenith" => Some(std::f64::consts::FRAC_PI_2),
+            _ => None,
+        }
     }
 
     pub(crate) fn refine(
         &self,
-        branch: BranchChoice,
+        opts: &ScanOptions,
         best: GridExtreme,
         kind: ExtremeKind,
     ) -> Extreme {
@@ -179,25 +239,36 @@ impl Plan {
             refinement: None,
             at_end,
             unsolved_neighbour_si: None,
+            suborbital_neighbour_si: None,
         };
         let grid0 = &self.axes[0].grid;
         let n0 = grid0.len();
         if n0 < 2 {
             return ext;
         }
-        // The bracket: the grid neighbours that solve. A neighbour that does
-        // not solve marks the edge of the solved region; the speed often
-        // runs off to infinity there, so the search stays on this side.
+        // The bracket: the grid neighbours that solve with a counted
+        // solution. A neighbour that does not marks the edge of the solved
+        // (or orbital) region; the speed often runs off to infinity there,
+        // so the search stays on this side.
         let i0 = ix[0];
-        let solves = |i: usize| self.speed_at(branch, &grid_si, grid0.si(i), kind).is_some();
-        let left = i0.checked_sub(1);
-        let right = (i0 + 1 < n0).then_some(i0 + 1);
-        let left_ok = left.filter(|&i| solves(i));
-        let right_ok = right.filter(|&i| solves(i));
-        ext.unsolved_neighbour_si = [(left, left_ok), (right, right_ok)]
-            .iter()
-            .find(|(nb, ok)| nb.is_some() && ok.is_none())
-            .and_then(|(nb, _)| nb.map(|i| grid0.si(i)));
+        let at = |i: usize| self.speed_at(opts, &grid_si, grid0.si(i), kind);
+        let left = i0.checked_sub(1).map(|i| (i, at(i)));
+        let right = (i0 + 1 < n0).then(|| (i0 + 1, at(i0 + 1)));
+        let ok = |nb: Option<(usize, Along)>| nb.filter(|(_, a)| a.counted().is_some());
+        let (left_ok, right_ok) = (ok(left).map(|x| x.0), ok(right).map(|x| x.0));
+        let edge = |what: Along| {
+            [left, right]
+                .iter()
+                .flatten()
+                .find(|(_, a)| *a == what)
+                .map(|(i, _)| grid0.si(*i))
+        };
+        ext.unsolved_neighbour_si = edge(Along::Unsolved);
+        ext.suborbital_neighbour_si = ext
+            .unsolved_neighbour_si
+            .is_none()
+            .then(|| edge(Along::SuborbitalOnly))
+            .flatten();
         let (lo, hi) = (left_ok.unwrap_or(i0), right_ok.unwrap_or(i0));
         if lo == hi {
             return ext;
@@ -210,7 +281,7 @@ impl Plan {
         let penalty = 1e3 * best.speed.abs().max(1.0);
         let objective = SpeedAlong {
             plan: self,
-            branch,
+            opts: *opts,
             si: grid_si.clone(),
             kind,
             penalty,
@@ -252,9 +323,25 @@ impl Plan {
         if (x - grid_si[0]).abs() <= tol {
             return ext;
         }
-        let Some((speed, bits)) = self.speed_at(branch, &grid_si, x, kind) else {
+        let Some((mut speed, mut bits)) = self.speed_at(opts, &grid_si, x, kind).counted() else {
             return ext;
         };
+        // An extreme Brent places within its tolerance of an apsis (a
+        // flight-path angle of 0, where the speed is stationary, e.g. an
+        // apoapsis target's greatest speed) lands on one side of it by
+        // rounding alone, and that side would name the branch: take the
+        // apsis itself when it does at least as well. There the state has no
+        // radial speed and is labelled ascending, like every apsis.
+        let mut x = x;
+        if let Some(apsis) = self.apsis_on_first_axis() {
+            if (x - apsis).abs() <= tol && (a..=b).contains(&apsis) {
+                if let Some((v0, bits0)) = self.speed_at(opts, &grid_si, apsis, kind).counted() {
+                    if same_speed(v0, speed) || sign * v0 < sign * speed {
+                        (x, speed, bits) = (apsis, v0, bits0);
+                    }
+                }
+            }
+        }
         if sign * speed < sign * best.speed {
             ext.speed_m_s = speed;
             ext.branches = branch_names(bits);
@@ -262,16 +349,17 @@ impl Plan {
             ext.at_out[0] = grid0.si_to_out(x);
             ext.at_end[0] = false;
             ext.unsolved_neighbour_si = None;
+            ext.suborbital_neighbour_si = None;
         }
         ext
     }
 }
 
 /// Argmin cost function: the required speed along the first axis (negated
-/// for a maximum), a large finite penalty where nothing solves.
+/// for a maximum), a large finite penalty where nothing counted solves.
 pub(crate) struct SpeedAlong<'a> {
     plan: &'a Plan,
-    branch: BranchChoice,
+    opts: ScanOptions,
     si: Vec<f64>,
     kind: ExtremeKind,
     penalty: f64,
@@ -283,9 +371,9 @@ impl argmin::core::CostFunction for SpeedAlong<'_> {
 
     fn cost(&self, x: &f64) -> Result<f64, argmin::core::Error> {
         Ok(
-            match self.plan.speed_at(self.branch, &self.si, *x, self.kind) {
-                Some((v, _)) => self.kind.sign() * v,
-                None => self.penalty,
+            match self.plan.speed_at(&self.opts, &self.si, *x, self.kind) {
+                Along::Counted(v, _) => self.kind.sign() * v,
+                Along::SuborbitalOnly | Along::Unsolved => self.penalty,
             },
         )
     }

@@ -31,9 +31,8 @@ pub use crate::input::keys::solve_input_kind;
 pub use extreme::{Extreme, ExtremeKind, Refinement};
 pub use plan::{column_name, Axis, Plan};
 
-use crate::error::ErrorClass;
 use crate::solve::problem::{no_branch_message, BranchChoice, SolutionView};
-use extreme::{branch_bit, fold_extreme, GridExtreme};
+use extreme::{branch_bit, counts, fold_extreme, GridExtreme};
 pub(crate) use extreme::{branch_names, same_speed};
 use point::required_speed;
 use rayon::prelude::*;
@@ -96,6 +95,10 @@ pub struct ScanOptions {
     /// Keep an evenly thinned set of (speed, angle) samples per line, for a
     /// figure ([`ScanReport::samples`]).
     pub samples: bool,
+    /// Let suborbital solutions (those that meet the surface) be the
+    /// minimum or maximum required speed. By default the extremes are taken
+    /// over the solutions that do not: a suborbital row is still written.
+    pub extremes_include_suborbital: bool,
 }
 
 impl Default for ScanOptions {
@@ -104,6 +107,7 @@ impl Default for ScanOptions {
             branch: BranchChoice::Both,
             parallel: true,
             samples: false,
+            extremes_include_suborbital: false,
         }
     }
 }
@@ -121,6 +125,9 @@ pub struct ScanReport {
     pub infeasible: u64,
     /// Points whose inputs could not be used.
     pub invalid: u64,
+    /// Rows left out of the extremes because they are suborbital (0 with
+    /// [`ScanOptions::extremes_include_suborbital`]).
+    pub suborbital_not_counted: u64,
     /// Lowest required speed.
     pub minimum: Option<Extreme>,
     /// Highest required speed.
@@ -145,6 +152,7 @@ struct Stats {
     solved: u64,
     infeasible: u64,
     invalid: u64,
+    suborbital_not_counted: u64,
     min: Option<GridExtreme>,
     max: Option<GridExtreme>,
 }
@@ -155,6 +163,7 @@ impl Stats {
         self.solved += o.solved;
         self.infeasible += o.infeasible;
         self.invalid += o.invalid;
+        self.suborbital_not_counted += o.suborbital_not_counted;
         if let Some(m) = o.min {
             fold_extreme(&mut self.min, m, 1.0);
         }
@@ -277,13 +286,17 @@ impl Plan {
                         stats.rows += 1;
                         let st = view.state;
                         let bit = branch_bit(st.branch);
-                        let cand = GridExtreme {
-                            speed: required_speed(st, view.site),
-                            idx,
-                            branches: bit,
-                        };
-                        fold_extreme(&mut best_min, cand, 1.0);
-                        fold_extreme(&mut best_max, cand, -1.0);
+                        if counts(opts, view.warnings) {
+                            let cand = GridExtreme {
+                                speed: required_speed(st, view.site),
+                                idx,
+                                branches: bit,
+                            };
+                            fold_extreme(&mut best_min, cand, 1.0);
+                            fold_extreme(&mut best_max, cand, -1.0);
+                        } else {
+                            stats.suborbital_not_counted += 1;
+                        }
                         bytes.extend_from_slice(&prefix);
                         sink.solution(self, mu, view, &mut memo, &mut bytes);
                         if let Some(slot) = slot {
@@ -317,9 +330,12 @@ impl Plan {
                 }
                 Err(e) => {
                     stats.rows += 1;
-                    match e.class() {
-                        ErrorClass::Usage | ErrorClass::Io => stats.invalid += 1,
-                        ErrorClass::Infeasible => stats.infeasible += 1,
+                    // Counted as the row's status says (a solve that did not
+                    // converge is `invalid`, not `infeasible`).
+                    if e.status() == "infeasible" {
+                        stats.infeasible += 1;
+                    } else {
+                        stats.invalid += 1;
                     }
                     bytes.extend_from_slice(&prefix);
                     sink.failure(self, e.status(), &e.to_string(), &mut bytes);
@@ -438,16 +454,17 @@ impl Plan {
         }
         let minimum = stats
             .min
-            .map(|m| self.refine(opts.branch, m, ExtremeKind::Minimum));
+            .map(|m| self.refine(opts, m, ExtremeKind::Minimum));
         let maximum = stats
             .max
-            .map(|m| self.refine(opts.branch, m, ExtremeKind::Maximum));
+            .map(|m| self.refine(opts, m, ExtremeKind::Maximum));
         let report = ScanReport {
             points: total as u64,
             rows: stats.rows,
             solved: stats.solved,
             infeasible: stats.infeasible,
             invalid: stats.invalid,
+            suborbital_not_counted: stats.suborbital_not_counted,
             minimum,
             maximum,
             samples: pick.map(|pick| Samples { pick, samples }),
@@ -505,6 +522,7 @@ mod tests {
         branch: BranchChoice,
         sensitivities: bool,
         parallel: bool,
+        extremes_include_suborbital: bool,
     }
 
     impl Default for TestOpts {
@@ -514,6 +532,7 @@ mod tests {
                 branch: BranchChoice::Both,
                 sensitivities: false,
                 parallel: true,
+                extremes_include_suborbital: false,
             }
         }
     }
@@ -525,6 +544,7 @@ mod tests {
             branch: opts.branch,
             parallel: opts.parallel,
             samples: false,
+            extremes_include_suborbital: opts.extremes_include_suborbital,
         };
         let writer = ScanWriter {
             format: opts.format,
@@ -945,6 +965,52 @@ mod tests {
         assert_eq!(rows[1]["burnout_alt_m"], 200000);
         assert!(rows[2]["d_apoapsis_radius_m_d_speed_m_s"].as_f64().unwrap() > 0.0);
         assert_eq!(doc["summary"]["solved"], 3);
+    }
+
+    #[test]
+    fn suborbital_rows_are_rows_but_not_extremes_unless_counted() {
+        // Burnout 250 km, apoapsis 800 km, fpa swept: |fpa| >= 3.5 deg puts
+        // the periapsis under the surface (10 of the 14 rows).
+        let pairs = [
+            ("burnout-alt", "250"),
+            ("apoapsis-alt", "800"),
+            ("fpa", "-10deg..10deg:1.5deg"),
+        ];
+        let (out, report) = run(&pairs, TestOpts::default());
+        assert_eq!(report.rows, 14);
+        assert_eq!(report.suborbital_not_counted, 10);
+        let rows = csv_rows(&out);
+        assert_eq!(rows[1][2].split(' ').next(), Some("suborbital"));
+        let min = report.minimum.unwrap();
+        assert_relative_eq!(min.at_si[0], (-2.5f64).to_radians(), max_relative = 1e-15);
+        assert_relative_eq!(
+            min.suborbital_neighbour_si.unwrap(),
+            (-4f64).to_radians(),
+            max_relative = 1e-15
+        );
+        // The greatest speed, at the apsis fpa = 0 (vis-viva at periapsis,
+        // v^2 = 2 mu ra / (r (r + ra))), is named as apsis states are.
+        let max = report.maximum.unwrap();
+        assert_eq!(max.branches, vec!["ascending"]);
+        assert_eq!(max.at_si[0].to_bits(), 0f64.to_bits());
+        let (mu, re) = (3.986004418e14, crate::physics::body::EARTH_RADIUS_M);
+        let (r, ra) = (re + 250e3, re + 800e3);
+        assert_relative_eq!(
+            max.speed_m_s,
+            (2.0 * mu * ra / (r * (r + ra))).sqrt(),
+            max_relative = 1e-12
+        );
+        let (_, all) = run(
+            &pairs,
+            TestOpts {
+                extremes_include_suborbital: true,
+                ..TestOpts::default()
+            },
+        );
+        assert_eq!(all.suborbital_not_counted, 0);
+        let min = all.minimum.unwrap();
+        assert_eq!(min.at_end, vec![true]);
+        assert_relative_eq!(min.at_si[0], (-10f64).to_radians(), max_relative = 1e-15);
     }
 
     #[test]

@@ -206,6 +206,14 @@ pub fn solve_with_site(
         )?);
         states.push(st);
     }
+    // The planar answer already dropped roots that meet the surface before
+    // a targeted apsis; a coupled run polished away from one is held to the
+    // same rule.
+    let keep = crate::solve::feasibility::reaching_coast_events(body, &problem.targets, &states)?;
+    if keep.len() < states.len() {
+        states = keep.iter().map(|&i| states[i]).collect();
+        sites = keep.iter().map(|&i| sites[i]).collect();
+    }
     let best = good[0];
     let mut residuals =
         crate::solve::problem::target_residuals(body.mu_m3_s2, &problem.targets, &states[0]);

@@ -11,6 +11,7 @@ mod bad_input;
 mod batch;
 mod budget;
 mod cases;
+mod edges;
 mod hardening;
 mod scan;
 mod site;

@@ -87,13 +87,21 @@ fn energy_only_target_sets_are_refused_as_a_continuous_family() {
 /// next to the fold of the eccentricity sheet. Reference roots from the
 /// independent 50-digit mpmath reference (scripts/coast_reference.py,
 /// seed 1, case 41).
+///
+/// A pure two-body check: the body is Jupiter's mu shrunk to a 1 mm
+/// radius (burnout at Jupiter's radius 71492 km plus 52667.170145177058
+/// km), since two of the roots pass periapses under Jupiter's surface and
+/// about Jupiter itself meet it before periapsis (they are no solutions
+/// there; the edges tests cover that rule).
 #[test]
 fn near_parabolic_near_radial_coast_roots_are_all_found() {
     let doc = solve_json(&[
-        "--body",
-        "jupiter",
-        "--burnout-alt",
-        "52667.170145177058km",
+        "--mu",
+        "1.267127648e17m3/s2",
+        "--radius",
+        "0.001m",
+        "--burnout-radius",
+        "124159170.14517707m",
         "--ecc",
         "0.99999999268179559",
         "--time-to-periapsis",
@@ -326,11 +334,16 @@ fn angle_and_two_elements_solve_for_the_burnout_altitude() {
 /// coast of 3e5 years to a 1.2e10 km apoapsis keeps its two roots.
 /// Reference: scripts/coast_reference.py (seed 1, case 127):
 /// fpa 58.470628120777706 and -58.494732099435155 deg.
+/// A pure two-body check about Mercury's mu with a 1 mm radius: the
+/// descending root passes a periapsis under Mercury's surface before its
+/// apoapsis, so about Mercury itself it is no solution.
 #[test]
 fn near_parabolic_apoapsis_sheet_keeps_its_roots() {
     let doc = solve_json(&[
-        "--body",
-        "mercury",
+        "--mu",
+        "2.203209e13m3/s2",
+        "--radius",
+        "0.001m",
         "--burnout-radius",
         "1667.4190779428617nmi",
         "--apoapsis-radius",
@@ -347,11 +360,16 @@ fn near_parabolic_apoapsis_sheet_keeps_its_roots() {
 /// Near-parabolic semi-major-axis sheet (Mars, a = 4.4e9 m): both roots.
 /// Reference: scripts/coast_reference.py (seed 1, case 162):
 /// fpa 43.942453286537752 and 46.04798612554631 deg.
+/// A pure two-body check about Mars's mu with a 1 mm radius: both roots'
+/// periapses lie under the surface of Mars itself, which they would meet
+/// first.
 #[test]
 fn near_parabolic_sma_sheet_keeps_its_roots() {
     let doc = solve_json(&[
-        "--body",
-        "mars",
+        "--mu",
+        "4.2828375214e13m3/s2",
+        "--radius",
+        "0.001m",
         "--burnout-radius",
         "3439274.0182142705m",
         "--sma",
@@ -425,14 +443,21 @@ fn batch_input_columns_named_like_results_are_written_as_given() {
 /// through the planet, kept as a pure two-body check): the energy along it
 /// is taken in non-cancelling factors, so both roots at +-89.99 deg are
 /// found. Reference: scripts/coast_reference.py (seed 1, case 125).
+/// The body is Venus's mu with a 1 mm radius (burnout and periapsis at
+/// Venus's radius 6051.8 km plus the case's altitudes 1429.2244428834269 km
+/// and -6051.7998890730057 km): the descending root would meet Venus
+/// itself before its apoapsis.
 #[test]
 fn near_radial_apsis_sheet_finds_both_steep_roots() {
     let doc = solve_json(&[
-        "--body",
-        "venus",
-        "--burnout-alt",
-        "1429.2244428834269km",
-        "--periapsis-alt=-6051.7998890730057km",
+        "--mu",
+        "3.24858592e14m3/s2",
+        "--radius",
+        "0.001m",
+        "--burnout-radius",
+        "7481024.442883427m",
+        "--periapsis-radius",
+        "0.11092699412256479m",
         "--time-to-apoapsis",
         "0.061388866559093397d",
     ]);

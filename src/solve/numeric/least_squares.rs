@@ -265,7 +265,7 @@ pub(super) fn least_squares(
     } else {
         "trust-region, gauss-newton hessian (argmin)"
     };
-    Ok(report(
+    report(
         problem,
         system,
         states,
@@ -273,5 +273,5 @@ pub(super) fn least_squares(
         iterations,
         termination,
         seed_count,
-    ))
+    )
 }

@@ -41,7 +41,7 @@ use crate::physics::kepler::coast_times;
 use crate::physics::kepler::coast_times_at;
 use crate::physics::orbit::EnergyRatio;
 use crate::physics::state::{forward_state, BurnoutState};
-use crate::solve::feasibility::Warning;
+use crate::solve::feasibility::{reaching_coast_events, Warning};
 use crate::solve::invert::burnout_for_conic;
 use crate::solve::problem::{finish, Problem, Solved, SolverReport};
 use crate::solve::target::{conic_from_pair, Target, TargetQuantity};
@@ -600,7 +600,7 @@ fn checked_roots(
     } else {
         method.to_string()
     };
-    Ok(report(
+    report(
         problem,
         system,
         states,
@@ -608,18 +608,28 @@ fn checked_roots(
         iterations,
         "every bracketed root refined to its rounding limit".into(),
         None,
-    ))
+    )
 }
 
+/// The solved problem from its roots: roots whose path meets the surface
+/// before an apsis a coast target aims at are not solutions for that
+/// target and are dropped first ([`reaching_coast_events`]).
+///
+/// # Errors
+/// [`Error::Infeasible`] when every root meets the surface first.
 fn report(
     problem: &Problem,
     system: &System,
-    states: Vec<BurnoutState>,
+    mut states: Vec<BurnoutState>,
     method: &str,
     iterations: u64,
     termination: String,
     seed_count: Option<usize>,
-) -> Solved {
+) -> Result<Solved, Error> {
+    let keep = reaching_coast_events(&problem.body, &system.targets, &states)?;
+    if keep.len() < states.len() {
+        states = keep.into_iter().map(|i| states[i]).collect();
+    }
     let residuals = states
         .first()
         .map(|st| crate::solve::problem::target_residuals(system.mu, &system.targets, st))
@@ -639,7 +649,7 @@ fn report(
             s.warnings.push(Warning::SearchNotExhaustive { starts });
         }
     }
-    solved
+    Ok(solved)
 }
 
 fn describe_residuals(system: &System, st: &BurnoutState) -> String {
@@ -713,7 +723,7 @@ fn check_fixed_state(problem: &Problem, system: &System) -> Result<Solved, Error
     if res.len() != system.targets.len() || max_abs(&res) > AGREEMENT_TOLERANCE {
         return Err(conflict(problem, system, r, v, gamma));
     }
-    Ok(report(
+    report(
         problem,
         system,
         vec![st],
@@ -721,7 +731,7 @@ fn check_fixed_state(problem: &Problem, system: &System) -> Result<Solved, Error
         0,
         "targets agree".into(),
         None,
-    ))
+    )
 }
 
 #[cfg(test)]
@@ -905,12 +915,25 @@ mod tests {
         // root lies between the last defined sample and that edge. Root from
         // an independent 60-digit check: 11024.877 m/s.
         let re = earth().radius_m;
-        let p = problem(
+        let mut p = problem(
             Some(re + 46_744.815_995_133_28),
             None,
             Some(30.598_773_071_413_46f64.to_radians()),
             vec![Target::new(Q::TimeToPeriapsis, 621_000.589_055_352_7)],
         );
+        // That root's periapsis (about 4660 km from the centre) is under the
+        // Earth's surface: it meets the surface on the way down, before
+        // periapsis, so for the Earth it is no solution for the target.
+        let e = solve_numeric(&p).unwrap_err();
+        assert_eq!(e.class(), crate::ErrorClass::Infeasible);
+        assert!(
+            e.to_string()
+                .starts_with("every solution meets the surface before periapsis"),
+            "{e}"
+        );
+        // The root itself is a matter of mu, radius and angle alone: about a
+        // body of Earth's mu and a 1 km radius, nothing is in its way.
+        p.body = Body::custom(earth().mu_m3_s2, 1e3).unwrap();
         let s = solve_numeric(&p).unwrap();
         assert_relative_eq!(
             s.solutions[0].state.speed_m_s,
