@@ -144,33 +144,19 @@ pub fn flight_numbers(
     let open = ra.is_none();
     let nu_b = state.true_anomaly_rad;
     let surface = body.radius_m;
-    // The impact: where r = R after burnout, on the way down.
-    let impact = (rp < surface)
-        .then(|| {
-            let inbound = state.flight_path_angle_rad < 0.0;
-            if open && !inbound {
-                return None; // outbound on an open orbit: never comes back
-            }
-            let (v, g) = state_at(mu, state, surface, true)?;
-            let time_s = time_to(mu, state, period, surface, v, g)?;
-            // cos(nu) = (p / R - 1) / e on the descending crossing.
-            let p = c.semi_latus_rectum_m();
-            let cos_nu = ((p / surface - 1.0) / e).clamp(-1.0, 1.0);
-            let nu_impact = -cos_nu.acos(); // in (-pi, 0]
-            let travelled = if open {
-                nu_impact - signed(nu_b)
-            } else {
-                (nu_impact - nu_b).rem_euclid(2.0 * PI)
-            };
-            Some(Impact {
-                time_s,
-                speed_m_s: v,
-                flight_path_angle_rad: g,
-                downrange_rad: travelled,
-                ground_range_m: travelled * surface,
-            })
+    // The impact: where r = R after burnout, on the way down (the crossing
+    // itself, and whether the path reaches it, from the feasibility check).
+    let impact = crate::solve::feasibility::surface_crossing(surface, state).and_then(|x| {
+        let (v, g) = state_at(mu, state, surface, true)?;
+        let time_s = time_to(mu, state, period, surface, v, g)?;
+        Some(Impact {
+            time_s,
+            speed_m_s: v,
+            flight_path_angle_rad: g,
+            downrange_rad: x.downrange_rad,
+            ground_range_m: x.downrange_rad * surface,
         })
-        .flatten();
+    });
     let coast = coast_times(
         mu,
         state.radius_m,
