@@ -23,8 +23,9 @@ pub const RESULT_COLUMNS: [&str; 13] = [
 
 /// Launch-site columns, added after the result (and sensitivity) columns
 /// when a launch site is among the inputs (angles in deg, speeds in m/s;
-/// latitude geocentric).
-pub const SITE_COLUMNS: [&str; 8] = [
+/// latitude geocentric; `plane`: northbound, southbound, eastbound or
+/// westbound, which of the two planes through the site the row flies).
+pub const SITE_COLUMNS: [&str; 9] = [
     "launch_azimuth_deg",
     "azimuth_deg",
     "burnout_latitude_deg",
@@ -33,6 +34,7 @@ pub const SITE_COLUMNS: [&str; 8] = [
     "relative_flight_path_angle_deg",
     "relative_azimuth_deg",
     "inclination_deg",
+    "plane",
 ];
 
 /// The 15 sensitivity column names `d_<row>_d_<col>`.

@@ -6,7 +6,8 @@ use crate::report::rows::Record;
 use crate::solve::problem::Solved;
 use std::io::Write;
 
-/// The values of [`SITE_COLUMNS`] for a site state.
+/// The numeric values of [`SITE_COLUMNS`] for a site state (all but the
+/// last, `plane`).
 pub fn site_values(site: Option<&crate::physics::site::SiteState>) -> [Option<f64>; 8] {
     match site {
         None => [None; 8],

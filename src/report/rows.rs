@@ -226,7 +226,9 @@ impl<'a> Record<'a> {
         for v in super::csv::site_values(site) {
             self.opt(v);
         }
-        self
+        self.text(site.map_or("", |x| {
+            crate::physics::site::plane_label(x.launch_azimuth_rad)
+        }))
     }
 
     /// The result fields of a row that did not solve: status, message, blanks.

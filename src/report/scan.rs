@@ -122,11 +122,31 @@ fn show_fine(grid: &Grid, si: f64, units: DisplayUnits) -> String {
 /// "600 km", "0.35", "-2.5 deg": a value with its display unit, compactly.
 fn show(kind: Kind, si: f64, units: DisplayUnits) -> String {
     let (v, u, _) = display(kind, si, units);
-    if u.is_empty() {
-        g(v)
+    // Seven significant digits, trailing zeros dropped: a range given in
+    // one unit and shown in another (200 km as nmi) reads 107.9914 nmi,
+    // not 107.9913607 nmi.
+    let text = if v != 0.0 && v.is_finite() && (1e-4..1e9).contains(&v.abs()) {
+        let decimals = (6 - v.abs().log10().floor() as i32).max(0) as usize;
+        let s = format!("{v:.decimals$}");
+        if s.contains('.') {
+            s.trim_end_matches('0').trim_end_matches('.').to_string()
+        } else {
+            s
+        }
     } else {
-        format!("{} {u}", g(v))
+        g(v)
+    };
+    if u.is_empty() {
+        text
+    } else {
+        format!("{text} {u}")
     }
+}
+
+/// Whether the flight-path angle is a swept input (its result column would
+/// repeat the axis; a zenith axis keeps it, as the angle differs).
+fn fpa_swept(plan: &Plan) -> bool {
+    plan.axes.iter().any(|a| a.key == "fpa")
 }
 
 /// Output format of a scan.
@@ -232,12 +252,20 @@ impl ScanWriter {
                     line.push_str(&format!("{:>16} ", format!("{} {u}", a.key).trim_end()));
                 }
                 let (su, _) = self.units.speed();
-                line.push_str(&format!(
-                    "{:<11} {:>13} {:>12}  note",
-                    "branch",
-                    format!("speed {su}"),
-                    "fpa deg"
-                ));
+                line.push_str(&format!("{:<11} {:>13}", "branch", format!("speed {su}")));
+                if !fpa_swept(plan) {
+                    line.push_str(&format!(" {:>12}", "fpa deg"));
+                }
+                if plan.has_site() {
+                    line.push_str(&format!(
+                        " {:>11} {:>14} {:>10} {:>9}",
+                        "plane",
+                        format!("relative {su}"),
+                        "launch az",
+                        "incl deg"
+                    ));
+                }
+                line.push_str("  note");
                 writeln!(out, "{line}")
             }
         }
@@ -339,31 +367,45 @@ impl ScanWriter {
                         buf.push(b':');
                         json_num(buf, v);
                     }
+                    buf.extend_from_slice(b",\"plane\":");
+                    match s.site {
+                        Some(x) => {
+                            json_str(buf, crate::physics::site::plane_label(x.launch_azimuth_rad))
+                        }
+                        None => buf.extend_from_slice(b"null"),
+                    }
                 }
                 buf.push(b'}');
             }
             ScanFormat::Table => {
-                let (su, sf) = self.units.speed();
+                let (_, sf) = self.units.speed();
                 let decimals = if self.units == DisplayUnits::Us { 2 } else { 6 };
-                let mut note: Vec<String> = s.warnings.iter().map(warning_tag).collect();
-                if let Some(x) = s.site {
-                    note.insert(
-                        0,
-                        format!(
-                            "relative {:.decimals$} {su}, launch az {:.3} deg, incl {:.3} deg",
-                            x.relative_speed_m_s / sf,
-                            x.launch_azimuth_rad.to_degrees(),
-                            x.inclination_rad.to_degrees()
-                        ),
-                    );
-                }
-                let line = format!(
-                    "{:<11} {:>13} {:>12}  {}",
+                let note: Vec<String> = s.warnings.iter().map(warning_tag).collect();
+                let mut line = format!(
+                    "{:<11} {:>13}",
                     st.branch.name(),
-                    format!("{:.decimals$}", st.speed_m_s / sf),
-                    format!("{:.6}", st.flight_path_angle_rad.to_degrees()),
-                    note.join(", ")
+                    format!("{:.decimals$}", st.speed_m_s / sf)
                 );
+                if !fpa_swept(plan) {
+                    line.push_str(&format!(
+                        " {:>12}",
+                        format!("{:.6}", st.flight_path_angle_rad.to_degrees())
+                    ));
+                }
+                if plan.has_site() {
+                    match s.site {
+                        Some(x) => line.push_str(&format!(
+                            " {:>11} {:>14} {:>10} {:>9}",
+                            crate::physics::site::plane_label(x.launch_azimuth_rad),
+                            format!("{:.decimals$}", x.relative_speed_m_s / sf),
+                            format!("{:.3}", x.launch_azimuth_rad.to_degrees()),
+                            format!("{:.3}", x.inclination_rad.to_degrees())
+                        )),
+                        None => line
+                            .push_str(&format!(" {:>11} {:>14} {:>10} {:>9}", "-", "-", "-", "-")),
+                    }
+                }
+                line.push_str(&format!("  {}", note.join(", ")));
                 let _ = writeln!(buf, "{}", line.trim_end());
             }
         }
@@ -408,11 +450,14 @@ impl ScanWriter {
                 buf.push(b'}');
             }
             ScanFormat::Table => {
-                let _ = writeln!(
-                    buf,
-                    "{:<11} {:>13} {:>12}  {status}: {message}",
-                    "-", "-", "-"
-                );
+                let mut line = format!("{:<11} {:>13}", "-", "-");
+                if !fpa_swept(plan) {
+                    line.push_str(&format!(" {:>12}", "-"));
+                }
+                if plan.has_site() {
+                    line.push_str(&format!(" {:>11} {:>14} {:>10} {:>9}", "-", "-", "-", "-"));
+                }
+                let _ = writeln!(buf, "{line}  {status}: {message}");
             }
         }
     }

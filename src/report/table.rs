@@ -334,7 +334,11 @@ fn write_orbits(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
             "  specific energy  {} {e_unit}",
             energy(c.specific_energy_j_kg(mu))
         )?;
-        writeln!(out, "  C3               {} {e_unit}", energy(c.c3_m2_s2(mu)))?;
+        writeln!(
+            out,
+            "  C3               {} {e_unit}",
+            energy(c.c3_m2_s2(mu))
+        )?;
         writeln!(
             out,
             "  angular momentum {} {h_unit}",

@@ -308,3 +308,82 @@ fn case_title_heads_the_table() {
         Some(format!("case: {title}").as_str())
     );
 }
+
+/// Issue 14, human output and item 6 in machine output: a swept angle is
+/// not repeated as a result column; site results have their own columns,
+/// with the plane named; a range given in km reads sensibly in nmi
+/// (200 km = 107.99136 nmi, 1 nmi = 1852 m exactly).
+#[test]
+fn scan_tables_show_each_quantity_once_in_its_own_column() {
+    let r = run(&[
+        "scan",
+        "--burnout-alt",
+        "250",
+        "--apoapsis-alt",
+        "800",
+        "--fpa=-4deg..4deg:2deg",
+    ]);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    let header = r.stdout.lines().find(|l| l.contains("speed km/s")).unwrap();
+    assert_eq!(header.matches("fpa deg").count(), 1, "{header}");
+    let us = run(&[
+        "scan",
+        "--burnout-alt",
+        "200km..400km:100km",
+        "--periapsis-alt",
+        "100nmi",
+        "--apoapsis-alt",
+        "200nmi",
+        "--units",
+        "us",
+    ]);
+    assert!(
+        us.stdout
+            .starts_with("scan over earth: --burnout-alt 107.9914 nmi to 215.9827 nmi"),
+        "{}",
+        us.stdout
+    );
+    let site = [
+        "scan",
+        "--burnout-alt",
+        "200",
+        "--periapsis-alt",
+        "200",
+        "--apoapsis-alt",
+        "400",
+        "--latitude",
+        "28.5",
+        "--downrange",
+        "0km..1000km:500km",
+        "--inclination",
+        "51.6",
+    ];
+    let t = run(&site);
+    let header = t.stdout.lines().find(|l| l.contains("speed km/s")).unwrap();
+    for col in ["plane", "relative km/s", "launch az", "incl deg"] {
+        assert!(header.contains(col), "{header}");
+    }
+    assert_eq!(t.stdout.matches("northbound").count(), 3, "{}", t.stdout);
+    let mut csv_args = site.to_vec();
+    csv_args.extend(["--format", "csv"]);
+    let c = run(&csv_args);
+    let mut rd = csv::Reader::from_reader(c.stdout.as_bytes());
+    let cols: Vec<String> = rd.headers().unwrap().iter().map(str::to_string).collect();
+    let plane = cols
+        .iter()
+        .position(|h| h == "plane")
+        .expect("plane column");
+    let az = cols.iter().position(|h| h == "launch_azimuth_deg").unwrap();
+    for rec in rd.records() {
+        let rec = rec.unwrap();
+        let a: f64 = rec[az].parse::<f64>().unwrap().to_radians();
+        assert_eq!(
+            &rec[plane],
+            if a.cos() > 0.0 {
+                "northbound"
+            } else {
+                "southbound"
+            }
+        );
+    }
+}
