@@ -89,7 +89,17 @@ pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std:
     write_orbits(out, &c)?;
     write_flight(out, &c)?;
     write_coefficients(out, &c)?;
-    let warnings = solved.warnings();
+    // The same warnings as the machine output, worded for people: lengths
+    // in the table's unit to about the metre.
+    let mut warnings: Vec<String> = Vec::new();
+    for s in &solved.solutions {
+        for w in &s.warnings {
+            let text = w.describe(units.length());
+            if !warnings.contains(&text) {
+                warnings.push(text);
+            }
+        }
+    }
     if !warnings.is_empty() {
         writeln!(out)?;
         writeln!(out, "warnings:")?;

@@ -105,6 +105,55 @@ impl std::fmt::Display for Warning {
     }
 }
 
+impl Warning {
+    /// The warning for people: lengths in `length` = (unit name, metres per
+    /// unit), e.g. `("km", 1e3)` or `("nmi", 1852.0)`, to about the metre,
+    /// angles to 1e-4 deg. (`Display`, used in machine output, keeps every
+    /// number to ten significant digits in SI.)
+    pub fn describe(&self, length: (&str, f64)) -> String {
+        let (lu, lf) = length;
+        let len = |m: f64| {
+            let decimals = (3.0 - (lf / 1e3).log10()).round().clamp(0.0, 6.0) as usize;
+            format!("{:.decimals$} {lu}", m / lf)
+        };
+        let deg = |rad: f64| format!("{:.4} deg", rad.to_degrees());
+        match self {
+            Warning::Suborbital {
+                branch,
+                periapsis_radius_m,
+                surface_radius_m,
+                impact_true_anomaly_rad,
+                downrange_rad,
+            } => format!(
+                "suborbital ({branch}): periapsis radius {} is below the surface radius {}; the trajectory meets the surface at true anomaly {}, {} ({} along the surface) downrange of burnout",
+                len(*periapsis_radius_m),
+                len(*surface_radius_m),
+                deg(*impact_true_anomaly_rad),
+                deg(*downrange_rad),
+                len(downrange_rad * surface_radius_m)
+            ),
+            Warning::PeriapsisBelowSurfaceNotReached {
+                branch,
+                periapsis_radius_m,
+                surface_radius_m,
+            } => format!(
+                "periapsis below the surface, not reached ({branch}): periapsis radius {} is below the surface radius {}, but burnout is outbound on an open orbit, which only climbs from burnout on: the trajectory does not meet the surface",
+                len(*periapsis_radius_m),
+                len(*surface_radius_m)
+            ),
+            Warning::LowPeriapsis {
+                periapsis_alt_m,
+                min_alt_m,
+            } => format!(
+                "periapsis altitude {} is below the minimum safe periapsis altitude {}",
+                len(*periapsis_alt_m),
+                len(*min_alt_m)
+            ),
+            other => other.to_string(),
+        }
+    }
+}
+
 /// Where a trajectory first meets the surface after burnout.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct SurfaceCrossing {

@@ -387,3 +387,29 @@ fn scan_tables_show_each_quantity_once_in_its_own_column() {
         );
     }
 }
+
+/// Issue 14, human output: warnings in the table are worded in the table's
+/// units to about the metre (the JSON keeps ten significant digits in SI).
+#[test]
+fn table_warnings_use_the_table_units_and_sensible_precision() {
+    let case = crate::case_path("sounding-shot.toml");
+    let si = run(&["solve", "--case", &case]);
+    let us = run(&["solve", "--case", &case, "--units", "us"]);
+    let line = |text: &str| {
+        text.lines()
+            .find(|l| l.contains("suborbital ("))
+            .unwrap()
+            .to_string()
+    };
+    let (si_line, us_line) = (line(&si.stdout), line(&us.stdout));
+    // 6378.137 km is the WGS 84 equatorial radius; 3443.918 nmi the same
+    // length in nautical miles (1 nmi = 1852 m).
+    assert!(si_line.contains("surface radius 6378.137 km"), "{si_line}");
+    assert!(us_line.contains("surface radius 3443.918 nmi"), "{us_line}");
+    assert!(
+        !si_line.contains(" m;") && !us_line.contains(" km"),
+        "{si_line} / {us_line}"
+    );
+    let doc = solve_json(&["--case", &case]);
+    assert!(crate::warnings(&doc)[0].contains("surface radius 6378137 m"));
+}
