@@ -69,6 +69,7 @@ fn scan_million(c: &mut Criterion) {
         units: DisplayUnits::Si,
         sensitivities: false,
         branch: opts.branch,
+        flight: false,
     };
     let mut out: Vec<u8> = Vec::with_capacity(400 << 20);
     let mut group = c.benchmark_group("scan");

@@ -37,6 +37,47 @@ pub const SITE_COLUMNS: [&str; 9] = [
     "plane",
 ];
 
+/// Flight-plan columns (`--flight`), after the site columns: times to the
+/// apsides, apsis speeds, v-infinity and the asymptote, the impact, and the
+/// time above `--above-alt` (see [`crate::solve::flight`]); blank where a
+/// number does not exist for the row.
+pub const FLIGHT_COLUMNS: [&str; 12] = [
+    "to_apoapsis_s",
+    "to_periapsis_s",
+    "periapsis_speed_m_s",
+    "apoapsis_speed_m_s",
+    "v_infinity_m_s",
+    "asymptote_angle_deg",
+    "impact_time_s",
+    "impact_speed_m_s",
+    "impact_flight_path_angle_deg",
+    "impact_downrange_deg",
+    "impact_ground_range_m",
+    "time_above_s",
+];
+
+/// The values of [`FLIGHT_COLUMNS`] for a row.
+pub fn flight_values(f: Option<&crate::solve::flight::FlightNumbers>) -> [Option<f64>; 12] {
+    let Some(f) = f else {
+        return [None; 12];
+    };
+    let i = f.impact;
+    [
+        f.to_apoapsis_s,
+        f.to_periapsis_s,
+        f.periapsis_speed_m_s,
+        f.apoapsis_speed_m_s,
+        f.v_infinity_m_s,
+        f.asymptote_angle_rad.map(f64::to_degrees),
+        i.map(|i| i.time_s),
+        i.map(|i| i.speed_m_s),
+        i.map(|i| i.flight_path_angle_rad.to_degrees()),
+        i.map(|i| i.downrange_rad.to_degrees()),
+        i.map(|i| i.ground_range_m),
+        f.time_above_s,
+    ]
+}
+
 /// The 15 sensitivity column names `d_<row>_d_<col>`.
 pub fn sensitivity_columns() -> Vec<String> {
     let mut out = Vec::with_capacity(15);

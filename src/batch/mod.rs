@@ -68,6 +68,8 @@ pub struct BatchOptions {
     pub sensitivities: bool,
     /// Solve each chunk in parallel (output order is the same either way).
     pub parallel: bool,
+    /// Add the flight-plan columns ([`crate::columns::FLIGHT_COLUMNS`]).
+    pub flight: bool,
 }
 
 impl Default for BatchOptions {
@@ -75,6 +77,7 @@ impl Default for BatchOptions {
         BatchOptions {
             sensitivities: false,
             parallel: true,
+            flight: false,
         }
     }
 }
@@ -96,12 +99,14 @@ pub trait BatchSink: Sync {
     );
     /// The rest of a row for one kept solution (`site`: whether the site
     /// columns are written).
+    #[allow(clippy::too_many_arguments)]
     fn solution(
         &self,
         mu_m3_s2: f64,
         s: &crate::solve::problem::Solution,
         sensitivities: bool,
         site: bool,
+        flight: Option<Option<&crate::solve::flight::FlightNumbers>>,
         buf: &mut Vec<u8>,
     );
     /// The rest of a row for a record without a kept solution.
@@ -111,6 +116,7 @@ pub trait BatchSink: Sync {
         message: &str,
         sensitivities: bool,
         site: bool,
+        flight: bool,
         buf: &mut Vec<u8>,
     );
 }
@@ -286,6 +292,11 @@ impl<R: BufRead> Batch<R> {
 
     /// The output header: input columns, result columns, partials if asked.
     pub fn output_columns(&self, sensitivities: bool) -> Vec<String> {
+        self.output_columns_with(sensitivities, false)
+    }
+
+    /// As [`Batch::output_columns`], with the flight-plan columns if asked.
+    pub fn output_columns_with(&self, sensitivities: bool, flight: bool) -> Vec<String> {
         let mut cols: Vec<String> = self
             .layout
             .names
@@ -298,6 +309,9 @@ impl<R: BufRead> Batch<R> {
         }
         if self.layout.has_site() {
             cols.extend(SITE_COLUMNS.iter().map(|s| s.to_string()));
+        }
+        if flight {
+            cols.extend(crate::columns::FLIGHT_COLUMNS.iter().map(|s| s.to_string()));
         }
         cols
     }
@@ -319,7 +333,7 @@ impl<R: BufRead> Batch<R> {
         let mut head = Vec::new();
         sink.header(
             &self.layout.raw_names,
-            &self.output_columns(opts.sensitivities),
+            &self.output_columns_with(opts.sensitivities, opts.flight),
             &mut head,
         );
         out.write_all(&head).map_err(BatchError::Write)?;
@@ -432,7 +446,14 @@ impl Layout {
         let site = self.has_site();
         let fail = |buf: &mut Vec<u8>, e: &Error| {
             buf.extend_from_slice(&prefix);
-            sink.failure(e.status(), &e.to_string(), opts.sensitivities, site, buf);
+            sink.failure(
+                e.status(),
+                &e.to_string(),
+                opts.sensitivities,
+                site,
+                opts.flight,
+                buf,
+            );
             (Some(e.status()), 1)
         };
         match self.problem_of(r) {
@@ -446,7 +467,21 @@ impl Layout {
                         let mut rows = 0;
                         for s in kept(&solved, branch) {
                             buf.extend_from_slice(&prefix);
-                            sink.solution(mu, s, opts.sensitivities, site, buf);
+                            let flight = opts.flight.then(|| {
+                                crate::solve::flight::flight_numbers(
+                                    &solved.body,
+                                    &s.state,
+                                    solved.problem.above_alt_m,
+                                )
+                            });
+                            sink.solution(
+                                mu,
+                                s,
+                                opts.sensitivities,
+                                site,
+                                opts.flight.then_some(flight.as_ref()),
+                                buf,
+                            );
                             rows += 1;
                         }
                         if rows == 0 {

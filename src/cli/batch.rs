@@ -26,6 +26,10 @@ pub struct Args {
     /// Add the 15 sensitivity columns d_<row>_d_<col>.
     #[arg(long)]
     sensitivities: bool,
+    /// Add the flight-plan columns (times to the apsides, apsis speeds,
+    /// v-infinity, impact, time above --above-alt; CSV and JSON).
+    #[arg(long)]
+    flight: bool,
     /// Neutralise input cells (id, carried columns, header names) that a spreadsheet would run as
     /// a formula (starting with =, +, -, @): prefix them with '. Plain numbers are kept.
     #[arg(long)]
@@ -89,6 +93,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
     }
     let opts = BatchOptions {
         sensitivities: args.sensitivities,
+        flight: args.flight,
         parallel: true,
     };
     let sink = BatchCsv {

@@ -49,6 +49,10 @@ pub struct Args {
     /// Add the 15 sensitivity columns d_<row>_d_<col> (CSV and JSON).
     #[arg(long)]
     sensitivities: bool,
+    /// Add the flight-plan columns (times to the apsides, apsis speeds,
+    /// v-infinity, impact, time above --above-alt; CSV and JSON).
+    #[arg(long)]
+    flight: bool,
     /// Draw required speed and flight-path angle against the first swept input, as SVG.
     #[arg(long, value_name = "FILE.svg")]
     plot: Option<PathBuf>,
@@ -154,6 +158,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
         format,
         units: args.units.into(),
         sensitivities: args.sensitivities,
+        flight: args.flight,
         branch: opts.branch,
     };
     let mut progress = Progress::new(plan.len() as u64, "points");

@@ -19,6 +19,10 @@ pub struct Args {
     /// With --format csv: add the 15 sensitivity columns.
     #[arg(long)]
     sensitivities: bool,
+    /// Add the flight-plan columns (times to the apsides, apsis speeds,
+    /// v-infinity, impact, time above --above-alt; CSV and JSON).
+    #[arg(long)]
+    flight: bool,
 }
 
 /// Solves and prints; returns the exit code.
@@ -34,7 +38,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
             report::table::write(&mut buf, &solved, args.units.into()).map_err(io)?
         }
         Format::Json => report::json::write(&mut buf, &solved).map_err(io)?,
-        Format::Csv => report::csv::write(&mut buf, &solved, args.sensitivities)
+        Format::Csv => report::csv::write(&mut buf, &solved, args.sensitivities, args.flight)
             .map_err(|e| Error::Io(format!("cannot write csv: {e}")))?,
     }
     super::emit(&buf)?;

@@ -58,12 +58,16 @@ impl BatchSink for BatchCsv {
         s: &Solution,
         sensitivities: bool,
         site: bool,
+        flight: Option<Option<&crate::solve::flight::FlightNumbers>>,
         buf: &mut Vec<u8>,
     ) {
         let mut rec = Record::new(buf);
         rec.solution(mu_m3_s2, s, sensitivities);
         if site {
             rec.site(s.site.as_ref());
+        }
+        if let Some(f) = flight {
+            rec.flight(f);
         }
         rec.end();
     }
@@ -74,12 +78,16 @@ impl BatchSink for BatchCsv {
         message: &str,
         sensitivities: bool,
         site: bool,
+        flight: bool,
         buf: &mut Vec<u8>,
     ) {
         let mut rec = Record::new(buf);
         rec.failure(status, message, sensitivities);
         if site {
             rec.site(None);
+        }
+        if flight {
+            rec.flight(None);
         }
         rec.end();
     }

@@ -81,7 +81,12 @@ pub fn push_cell_bytes(buf: &mut Vec<u8>, cell: &[u8], neutralise: bool) {
 ///
 /// # Errors
 /// I/O errors of `out`.
-pub fn write(out: &mut impl Write, solved: &Solved, sensitivities: bool) -> std::io::Result<()> {
+pub fn write(
+    out: &mut impl Write,
+    solved: &Solved,
+    sensitivities: bool,
+    flight: bool,
+) -> std::io::Result<()> {
     let mut buf = Vec::with_capacity(1024);
     let mut header = Record::new(&mut buf);
     for c in RESULT_COLUMNS {
@@ -92,11 +97,24 @@ pub fn write(out: &mut impl Write, solved: &Solved, sensitivities: bool) -> std:
             header.text(&c);
         }
     }
+    if flight {
+        for c in crate::columns::FLIGHT_COLUMNS {
+            header.text(c);
+        }
+    }
     header.end();
     for s in &solved.solutions {
-        Record::new(&mut buf)
-            .solution(solved.body.mu_m3_s2, s, sensitivities)
-            .end();
+        let mut rec = Record::new(&mut buf);
+        rec.solution(solved.body.mu_m3_s2, s, sensitivities);
+        if flight {
+            let f = crate::solve::flight::flight_numbers(
+                &solved.body,
+                &s.state,
+                solved.problem.above_alt_m,
+            );
+            rec.flight(Some(&f));
+        }
+        rec.end();
     }
     out.write_all(&buf)
 }

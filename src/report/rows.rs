@@ -231,6 +231,14 @@ impl<'a> Record<'a> {
         }))
     }
 
+    /// The [`crate::columns::FLIGHT_COLUMNS`] fields (blank without numbers).
+    pub fn flight(&mut self, f: Option<&crate::solve::flight::FlightNumbers>) -> &mut Self {
+        for v in crate::columns::flight_values(f) {
+            self.opt(v);
+        }
+        self
+    }
+
     /// The result fields of a row that did not solve: status, message, blanks.
     pub fn failure(&mut self, status: &str, message: &str, sensitivities: bool) -> &mut Self {
         self.text(status).text(&super::csv::safe_message(message));

@@ -4,6 +4,7 @@
 //! (Why this file is long: three formats share one row walk, and the
 //! figure's data is built from the same axes and extremes.)
 
+use crate::columns::{flight_values, FLIGHT_COLUMNS};
 use crate::error::g;
 use crate::input::range::Grid;
 use crate::input::units::Kind;
@@ -12,7 +13,7 @@ use crate::report::plot::{PlotData, PlotSeries};
 use crate::report::rows::{push_float, warning_tag, FloatMemo, Record};
 use crate::report::table::DisplayUnits;
 use crate::scan::{branch_names, same_speed};
-use crate::scan::{Extreme, ExtremeKind, Plan, Samples, ScanReport, ScanSink};
+use crate::scan::{Extreme, ExtremeKind, Plan, PointBody, Samples, ScanReport, ScanSink};
 use crate::solve::problem::{BranchChoice, SolutionView};
 use crate::solve::sensitivity::{COLS, ROWS};
 use std::io::Write;
@@ -29,6 +30,9 @@ pub struct ScanWriter {
     pub sensitivities: bool,
     /// The branches the scan keeps (named in the JSON and table headers).
     pub branch: BranchChoice,
+    /// Add the flight-plan columns ([`crate::columns::FLIGHT_COLUMNS`];
+    /// CSV, JSON).
+    pub flight: bool,
 }
 
 impl ScanSink for ScanWriter {
@@ -50,12 +54,12 @@ impl ScanSink for ScanWriter {
     fn solution(
         &self,
         plan: &Plan,
-        mu_m3_s2: f64,
+        at: &PointBody,
         s: SolutionView,
         scratch: &mut FloatMemo,
         buf: &mut Vec<u8>,
     ) {
-        self.solution_row(plan, mu_m3_s2, s, buf, scratch);
+        self.solution_row(plan, at, s, buf, scratch);
     }
 
     fn failure(&self, plan: &Plan, status: &str, message: &str, buf: &mut Vec<u8>) {
@@ -184,6 +188,9 @@ impl ScanWriter {
         if plan.has_site() {
             cols.extend(SITE_COLUMNS.iter().map(|s| s.to_string()));
         }
+        if self.flight {
+            cols.extend(FLIGHT_COLUMNS.iter().map(|s| s.to_string()));
+        }
         cols
     }
 
@@ -304,12 +311,16 @@ impl ScanWriter {
     fn solution_row(
         &self,
         plan: &Plan,
-        mu: f64,
+        at: &PointBody,
         s: SolutionView,
         buf: &mut Vec<u8>,
         memo: &mut FloatMemo,
     ) {
+        let mu = at.mu_m3_s2;
         let st = s.state;
+        let flight = self.flight.then(|| {
+            crate::solve::flight::flight_numbers_about(mu, at.surface_radius_m, st, at.above_alt_m)
+        });
         match self.format {
             ScanFormat::Csv => {
                 // The prefix ended with a separator: the record continues it.
@@ -317,6 +328,9 @@ impl ScanWriter {
                 rec.solution_memo(mu, s, self.sensitivities, memo);
                 if plan.has_site() {
                     rec.site(s.site);
+                }
+                if self.flight {
+                    rec.flight(flight.as_ref());
                 }
                 rec.end();
             }
@@ -375,6 +389,14 @@ impl ScanWriter {
                         None => buf.extend_from_slice(b"null"),
                     }
                 }
+                if self.flight {
+                    for (k, v) in FLIGHT_COLUMNS.iter().zip(flight_values(flight.as_ref())) {
+                        buf.push(b',');
+                        json_str(buf, k);
+                        buf.push(b':');
+                        json_num(buf, v);
+                    }
+                }
                 buf.push(b'}');
             }
             ScanFormat::Table => {
@@ -419,6 +441,9 @@ impl ScanWriter {
                 if plan.has_site() {
                     rec.site(None);
                 }
+                if self.flight {
+                    rec.flight(None);
+                }
                 rec.end();
             }
             ScanFormat::Json => {
@@ -442,6 +467,13 @@ impl ScanWriter {
                 }
                 if plan.has_site() {
                     for c in SITE_COLUMNS {
+                        buf.push(b',');
+                        json_str(buf, c);
+                        buf.extend_from_slice(b":null");
+                    }
+                }
+                if self.flight {
+                    for c in FLIGHT_COLUMNS {
                         buf.push(b',');
                         json_str(buf, c);
                         buf.extend_from_slice(b":null");

@@ -69,7 +69,7 @@ pub trait ScanSink: Sync {
     fn solution(
         &self,
         plan: &Plan,
-        mu_m3_s2: f64,
+        at: &PointBody,
         s: SolutionView,
         scratch: &mut Self::Scratch,
         buf: &mut Vec<u8>,
@@ -83,6 +83,18 @@ pub trait ScanSink: Sync {
     }
     /// Everything after the last row.
     fn trailer(&self, plan: &Plan, report: &ScanReport, out: &mut Vec<u8>);
+}
+
+/// The body a point was solved about, and its timing altitude: what a
+/// sink needs beside the solution to derive more numbers from it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PointBody {
+    /// Gravitational parameter, m^3/s^2.
+    pub mu_m3_s2: f64,
+    /// Surface radius, m.
+    pub surface_radius_m: f64,
+    /// The point's `--above-alt`, m, if given.
+    pub above_alt_m: Option<f64>,
 }
 
 /// How to run a scan (what it solves and keeps, not how it is written).
@@ -277,7 +289,11 @@ impl Plan {
             let mut solved_here = false;
             match &result {
                 Ok(point) => {
-                    let mu = point.mu();
+                    let at = PointBody {
+                        mu_m3_s2: point.mu(),
+                        surface_radius_m: point.surface_radius_m(),
+                        above_alt_m: point.above_alt_m(),
+                    };
                     let mut ordinals = [0u8; 2];
                     let mut best_min: Option<GridExtreme> = None;
                     let mut best_max: Option<GridExtreme> = None;
@@ -298,7 +314,7 @@ impl Plan {
                             stats.suborbital_not_counted += 1;
                         }
                         bytes.extend_from_slice(&prefix);
-                        sink.solution(self, mu, view, &mut memo, &mut bytes);
+                        sink.solution(self, &at, view, &mut memo, &mut bytes);
                         if let Some(slot) = slot {
                             let o = &mut ordinals[(bit - 1) as usize];
                             samples.push(Sample {
@@ -551,6 +567,7 @@ mod tests {
             units: DisplayUnits::Si,
             sensitivities: opts.sensitivities,
             branch: opts.branch,
+            flight: false,
         };
         let report = plan.run(&engine, &writer, &mut out, &mut |_| {}).unwrap();
         (String::from_utf8(out).unwrap(), report)

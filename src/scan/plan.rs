@@ -360,6 +360,7 @@ impl Plan {
                         };
                         return Ok(Point::Lean {
                             mu: p.body.mu_m3_s2,
+                            surface_radius_m: p.body.radius_m,
                             warnings: [warn(0), warn(1)],
                             lean,
                         });

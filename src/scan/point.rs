@@ -15,6 +15,7 @@ pub(crate) enum Point {
     Full(Solved),
     Lean {
         mu: f64,
+        surface_radius_m: f64,
         lean: LeanSolved,
         warnings: [Vec<Warning>; 2],
     },
@@ -25,6 +26,25 @@ impl Point {
         match self {
             Point::Full(s) => s.body.mu_m3_s2,
             Point::Lean { mu, .. } => *mu,
+        }
+    }
+
+    /// The problem's `--above-alt`, m (a lean point has none: the key is
+    /// not one of the plain pair's).
+    pub(crate) fn above_alt_m(&self) -> Option<f64> {
+        match self {
+            Point::Full(s) => s.problem.above_alt_m,
+            Point::Lean { .. } => None,
+        }
+    }
+
+    /// The body's surface radius, m.
+    pub(crate) fn surface_radius_m(&self) -> f64 {
+        match self {
+            Point::Full(s) => s.body.radius_m,
+            Point::Lean {
+                surface_radius_m, ..
+            } => *surface_radius_m,
         }
     }
 

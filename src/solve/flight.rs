@@ -134,7 +134,17 @@ pub fn flight_numbers(
     state: &BurnoutState,
     above_alt_m: Option<f64>,
 ) -> FlightNumbers {
-    let mu = body.mu_m3_s2;
+    flight_numbers_about(body.mu_m3_s2, body.radius_m, state, above_alt_m)
+}
+
+/// As [`flight_numbers`], for a body given by its gravitational parameter
+/// (m^3/s^2) and surface radius (m).
+pub fn flight_numbers_about(
+    mu: f64,
+    surface_radius_m: f64,
+    state: &BurnoutState,
+    above_alt_m: Option<f64>,
+) -> FlightNumbers {
     let c = &state.conic;
     let h = c.angular_momentum_m2_s(mu);
     let rp = c.periapsis_radius_m();
@@ -143,7 +153,7 @@ pub fn flight_numbers(
     let e = c.ecc();
     let open = ra.is_none();
     let nu_b = state.true_anomaly_rad;
-    let surface = body.radius_m;
+    let surface = surface_radius_m;
     // The impact: where r = R after burnout, on the way down (the crossing
     // itself, and whether the path reaches it, from the feasibility check).
     let impact = crate::solve::feasibility::surface_crossing(surface, state).and_then(|x| {

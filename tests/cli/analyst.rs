@@ -413,3 +413,89 @@ fn table_warnings_use_the_table_units_and_sensible_precision() {
     let doc = solve_json(&["--case", &case]);
     assert!(crate::warnings(&doc)[0].contains("surface radius 6378137 m"));
 }
+
+/// Issue 14, flight numbers in scan and batch: `--flight` adds the
+/// columns, and they equal the solve JSON's flight object for the same
+/// inputs (one road to the numbers).
+#[test]
+fn flight_columns_in_scan_and_batch_match_solve() {
+    let r = run(&[
+        "scan",
+        "--burnout-alt",
+        "45",
+        "--fpa",
+        "80..84:2",
+        "--apoapsis-alt",
+        "250",
+        "--above-alt",
+        "100",
+        "--flight",
+        "--format",
+        "csv",
+    ]);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    let mut rd = csv::Reader::from_reader(r.stdout.as_bytes());
+    let h: Vec<String> = rd.headers().unwrap().iter().map(str::to_string).collect();
+    let col = |n: &str| {
+        h.iter()
+            .position(|x| x == n)
+            .unwrap_or_else(|| panic!("{n} in {h:?}"))
+    };
+    let mut checked = 0;
+    for rec in rd.records() {
+        let rec = rec.unwrap();
+        let fpa = &rec[col("fpa_deg")].to_string();
+        let doc = solve_json(&[
+            "--burnout-alt",
+            "45",
+            "--fpa",
+            fpa,
+            "--apoapsis-alt",
+            "250",
+            "--above-alt",
+            "100",
+        ]);
+        let f = &solutions(&doc)[0]["flight"];
+        for (c, k) in [
+            ("impact_time_s", "/impact/time_s"),
+            ("time_above_s", "/time_above_s"),
+            ("to_apoapsis_s", "/to_apoapsis_s"),
+        ] {
+            let got: f64 = rec[col(c)].parse().unwrap();
+            assert_eq!(got, num(f, k), "{c} at fpa {fpa}");
+        }
+        assert_eq!(&rec[col("to_periapsis_s")], "");
+        checked += 1;
+    }
+    assert_eq!(checked, 3);
+    let dir = tempfile::tempdir().unwrap();
+    let input = dir.path().join("in.csv");
+    std::fs::write(
+        &input,
+        "burnout-alt,fpa,apoapsis-alt,above-alt\n45,82,250,100\n",
+    )
+    .unwrap();
+    let b = run(&["batch", input.to_str().unwrap(), "--flight"]);
+    assert_eq!(b.code, Some(0), "{}", b.stderr);
+    let mut rd = csv::Reader::from_reader(b.stdout.as_bytes());
+    let h: Vec<String> = rd.headers().unwrap().iter().map(str::to_string).collect();
+    let i = h
+        .iter()
+        .position(|x| x == "impact_time_s")
+        .expect("flight columns in batch");
+    let rec = rd.records().next().unwrap().unwrap();
+    let doc = solve_json(&[
+        "--burnout-alt",
+        "45",
+        "--fpa",
+        "82",
+        "--apoapsis-alt",
+        "250",
+        "--above-alt",
+        "100",
+    ]);
+    assert_eq!(
+        rec[i].parse::<f64>().unwrap(),
+        num(&solutions(&doc)[0]["flight"], "/impact/time_s")
+    );
+}
