@@ -86,11 +86,18 @@ pub(super) fn slope<L: Line>(line: &L, y: f64, f0: f64) -> f64 {
     let h = (1e-7 * line.scale(y))
         .max(64.0 * f64::EPSILON * y.abs())
         .max(1e-300);
-    match (line.eval(y + h), line.eval(y - h)) {
-        (Some(a), Some(b)) => (a - b) / (2.0 * h),
-        (Some(a), None) => (a - f0) / h,
-        (None, Some(b)) => (f0 - b) / h,
-        (None, None) => 0.0,
+    derivative(line.eval(y + h), line.eval(y - h), Some(f0), h)
+}
+
+/// A finite-difference derivative from the values at x + h and x - h:
+/// central where both exist, one-sided against the value at x where one
+/// side is undefined, 0 where nothing is known.
+pub(super) fn derivative(plus: Option<f64>, minus: Option<f64>, at: Option<f64>, h: f64) -> f64 {
+    match (plus, minus, at) {
+        (Some(a), Some(b), _) => (a - b) / (2.0 * h),
+        (Some(a), None, Some(f0)) => (a - f0) / h,
+        (None, Some(b), Some(f0)) => (f0 - b) / h,
+        _ => 0.0,
     }
 }
 
@@ -105,23 +112,29 @@ pub(super) fn state_noise<L: Line>(line: &L, y: f64) -> f64 {
     };
     let (speed, angle) = line.derived();
     let h = 1e-7;
-    let d = |a: Option<f64>, b: Option<f64>| match (a, b) {
-        (Some(a), Some(b)) => ((a - b) / (2.0 * h)).abs(),
-        _ => 0.0,
-    };
+    let f0 = line.residual_at(r, v, g);
+    // Partials per relative step of the speed and of the angle.
     let dv = if speed {
-        d(
+        derivative(
             line.residual_at(r, v * (1.0 + h), g),
             line.residual_at(r, v * (1.0 - h), g),
+            f0,
+            h,
         )
+        .abs()
     } else {
         0.0
     };
     let dg = if angle {
-        d(
-            line.residual_at(r, v, g + h * g.abs().max(1e-12)),
-            line.residual_at(r, v, g - h * g.abs().max(1e-12)),
+        let step = h * g.abs().max(1e-12);
+        derivative(
+            line.residual_at(r, v, g + step),
+            line.residual_at(r, v, g - step),
+            f0,
+            step,
         )
+        .abs()
+            * (step / h)
     } else {
         0.0
     };

@@ -461,36 +461,48 @@ pub fn solve_from(problem: &Problem, start: (f64, f64, f64)) -> Result<Solved, E
     solve_system(problem, &system, Some(start))
 }
 
-/// Roots of a square subset as states (r, v, fpa), the method's name, and
-/// the iterations taken.
-type SquareRoots = (Vec<(f64, f64, f64)>, &'static str, u64, bool);
+/// Roots of a square subset as states (r, v, fpa), with how they were
+/// found.
+struct SquareRoots {
+    states: Vec<(f64, f64, f64)>,
+    method: &'static str,
+    iterations: u64,
+    /// Part of the domain lay within rounding of the target.
+    flat: bool,
+}
+
+impl SquareRoots {
+    /// From a line search's (states, iterations, flat).
+    fn bracketed(found: (Vec<(f64, f64, f64)>, u64, bool), method: &'static str) -> SquareRoots {
+        let (states, iterations, flat) = found;
+        SquareRoots {
+            states,
+            method,
+            iterations,
+            flat,
+        }
+    }
+}
 
 /// Roots of a square subset.
 fn solve_square(system: &System, square: &Square) -> Result<SquareRoots, Error> {
-    match *square {
-        Square::Line(i) => {
-            let line = FreeLine { system, target: i };
-            let (states, it, flat) = roots_as_states(&line, &grid_for(system));
-            Ok((
-                states,
-                "brent-root (argmin), bracketed over the domain",
-                it,
-                flat,
-            ))
-        }
+    Ok(match *square {
+        Square::Line(i) => SquareRoots::bracketed(
+            roots_as_states(&FreeLine { system, target: i }, &grid_for(system)),
+            "brent-root (argmin), bracketed over the domain",
+        ),
         Square::Pair(i, j) => {
             let r = system.fixed_radius_m.unwrap_or(f64::NAN);
             let conic = conic_from_pair(system.mu, &system.targets[i], &system.targets[j])?;
-            let states = burnout_for_conic(system.mu, &conic, r)?;
-            Ok((
-                states
+            SquareRoots {
+                states: burnout_for_conic(system.mu, &conic, r)?
                     .iter()
                     .map(|s| (s.radius_m, s.speed_m_s, s.flight_path_angle_rad))
                     .collect(),
-                "closed-form pair",
-                0,
-                false,
-            ))
+                method: "closed-form pair",
+                iterations: 0,
+                flat: false,
+            }
         }
         Square::Anomaly(a, o) => {
             let sheet = AnomalySheet {
@@ -499,24 +511,16 @@ fn solve_square(system: &System, square: &Square) -> Result<SquareRoots, Error> 
                 angle_to_apoapsis_rad: system.targets[a].value,
                 other: o,
             };
-            let (states, it, flat) = roots_as_states(&sheet, &ecc_logit_grid());
-            Ok((
-                states,
+            SquareRoots::bracketed(
+                roots_as_states(&sheet, &ecc_logit_grid()),
                 "brent-root (argmin) bracketed over the eccentricity along the states at the targeted true anomaly",
-                it,
-                flat,
-            ))
+            )
         }
-        Square::Sheet(e, o) => {
-            let (states, it, flat) = sheet_roots(system, e, o);
-            Ok((
-                states,
-                "brent-root (argmin) bracketed over the flight-path angle along the states meeting the orbit-element target",
-                it,
-                flat,
-            ))
-        }
-    }
+        Square::Sheet(e, o) => SquareRoots::bracketed(
+            sheet_roots(system, e, o),
+            "brent-root (argmin) bracketed over the flight-path angle along the states meeting the orbit-element target",
+        ),
+    })
 }
 
 fn solve_system(
@@ -542,7 +546,12 @@ fn solve_system(
     check_not_a_family(system)?;
     if start.is_none() {
         if let Some(square) = square_subset(system) {
-            let (candidates, method, iterations, flat) = solve_square(system, &square)?;
+            let SquareRoots {
+                states: candidates,
+                method,
+                iterations,
+                flat,
+            } = solve_square(system, &square)?;
             if candidates.is_empty() {
                 return Err(no_solution(problem, system, flat));
             }
