@@ -57,45 +57,12 @@ pub fn solve_with_site(
     problem: &crate::solve::problem::Problem,
     site: &SiteInputs,
 ) -> Result<crate::solve::problem::Solved, Error> {
-    use crate::solve::problem::{finish, SolverReport};
     validate(site)?;
-    let body = &problem.body;
     let planar = super::solve_planar(problem)?;
     // A given launch azimuth decorates the planar answer; a target
     // inclination beside it is a check.
     if let Some(az) = site.azimuth_rad {
-        let mut solved = planar;
-        for s in &mut solved.solutions {
-            let st = &s.state;
-            let ss = site_state(
-                body,
-                site,
-                az,
-                st.radius_m,
-                st.speed_m_s,
-                st.flight_path_angle_rad,
-            )?;
-            if let Some(i_t) = site.inclination_rad {
-                let d = ss.inclination_rad - i_t;
-                if d.abs() > 1e-9 {
-                    return Err(Error::Infeasible(format!(
-                        "the targets conflict: launch azimuth {} deg gives inclination {} deg, not the target {} deg (residual {} deg)",
-                        g(az.to_degrees()),
-                        g(ss.inclination_rad.to_degrees()),
-                        g(i_t.to_degrees()),
-                        g(d.to_degrees())
-                    )));
-                }
-            }
-            s.site = Some(ss);
-        }
-        if site.inclination_rad.is_some() {
-            solved
-                .solver
-                .residuals
-                .push(("inclination_deg".into(), 0.0));
-        }
-        return Ok(solved);
+        return with_given_azimuth(problem, site, planar, az);
     }
     let Some(i_t) = site.inclination_rad else {
         return Err(Error::Usage(format!(
@@ -104,8 +71,7 @@ pub fn solve_with_site(
             mention("inclination", "inclination")
         )));
     };
-    let lat_site = geocentric_latitude(body, site.latitude_geodetic_rad);
-    // Coupled solve for the launch azimuth with the planar unknowns.
+    let body = &problem.body;
     let system = crate::solve::numeric::System::new(problem)?;
     let coupled = SiteSystem {
         body,
@@ -113,27 +79,7 @@ pub fn solve_with_site(
         planar: &system,
         inclination_rad: i_t,
     };
-    // The two azimuths of the non-rotating relation at the site, then a
-    // ring of starts every 30 deg: with downrange, or an inclination close
-    // to the latitude, the northbound and southbound roots move apart from
-    // the site's pair (and from each other) and need their own starts.
-    let mut az_seeds: Vec<f64> = match azimuths_for_inclination(lat_site, i_t) {
-        Ok((n, s)) => vec![n, s],
-        Err(_) => Vec::new(),
-    };
-    az_seeds.extend((0..12).map(|k| k as f64 * PI / 6.0));
-    let mut runs = Vec::new();
-    for sol in &planar.solutions {
-        let st = &sol.state;
-        let planar_x = system.coords_of(st.radius_m, st.speed_m_s, st.flight_path_angle_rad);
-        for az in &az_seeds {
-            let mut x0 = vec![*az];
-            x0.extend_from_slice(&planar_x);
-            if let Some(run) = crate::solve::numeric::trust_region(&coupled, x0) {
-                runs.push(run);
-            }
-        }
-    }
+    let runs = coupled_runs(&coupled, &planar, &system);
     // A start accepted only when polished to the root tolerance: where the
     // inclination barely changes with azimuth (near a pole), an unconverged
     // start can sit within a looser tolerance of the target anywhere.
@@ -147,23 +93,124 @@ pub fn solve_with_site(
             .total_cmp(&crate::solve::numeric::max_abs(&b.residuals))
     });
     if good.is_empty() {
-        // Say why: the usual cause is an inclination below the burnout latitude.
-        let (lat_b, _, _) = great_circle(
-            lat_site,
-            site.longitude_rad,
-            az_seeds[0],
-            site.downrange_rad,
-        );
-        azimuths_for_inclination(lat_b, i_t)?;
-        return Err(Error::Infeasible(format!(
-            "no launch azimuth from latitude {} deg reaches inclination {} deg at this burnout speed and downrange",
-            g(site.latitude_geodetic_rad.to_degrees()),
-            g(i_t.to_degrees())
-        )));
+        return Err(no_azimuth(body, site, i_t));
     }
+    let (mut states, mut sites) = distinct_roots(&coupled, &planar, &good)?;
+    // The planar answer already dropped roots that meet the surface before
+    // a targeted apsis; a coupled run polished away from one is held to the
+    // same rule.
+    let keep = crate::solve::feasibility::reaching_coast_events(body, &problem.targets, &states)?;
+    if keep.len() < states.len() {
+        states = keep.iter().map(|&i| states[i]).collect();
+        sites = keep.iter().map(|&i| sites[i]).collect();
+    }
+    Ok(assemble(problem, i_t, good[0], states, sites))
+}
+
+/// The planar answer flown at a given launch azimuth; a target inclination
+/// beside it must agree.
+fn with_given_azimuth(
+    problem: &crate::solve::problem::Problem,
+    site: &SiteInputs,
+    planar: crate::solve::problem::Solved,
+    az: f64,
+) -> Result<crate::solve::problem::Solved, Error> {
+    let body = &problem.body;
+    let mut solved = planar;
+    for s in &mut solved.solutions {
+        let st = &s.state;
+        let ss = site_state(
+            body,
+            site,
+            az,
+            st.radius_m,
+            st.speed_m_s,
+            st.flight_path_angle_rad,
+        )?;
+        if let Some(i_t) = site.inclination_rad {
+            let d = ss.inclination_rad - i_t;
+            if d.abs() > 1e-9 {
+                return Err(Error::Infeasible(format!(
+                        "the targets conflict: launch azimuth {} deg gives inclination {} deg, not the target {} deg (residual {} deg)",
+                        g(az.to_degrees()),
+                        g(ss.inclination_rad.to_degrees()),
+                        g(i_t.to_degrees()),
+                        g(d.to_degrees())
+                    )));
+            }
+        }
+        s.site = Some(ss);
+    }
+    if site.inclination_rad.is_some() {
+        solved
+            .solver
+            .residuals
+            .push(("inclination_deg".into(), 0.0));
+    }
+    Ok(solved)
+}
+
+/// The two azimuths of the non-rotating relation at the site, then a ring
+/// of starts every 30 deg (with downrange, or an inclination close to the
+/// latitude, the northbound and southbound roots move apart from the
+/// site's pair and need their own starts), each from every planar answer.
+fn coupled_runs(
+    coupled: &SiteSystem,
+    planar: &crate::solve::problem::Solved,
+    system: &crate::solve::numeric::System,
+) -> Vec<crate::solve::numeric::Run> {
+    let lat_site = geocentric_latitude(coupled.body, coupled.site.latitude_geodetic_rad);
+    let mut az_seeds: Vec<f64> = match azimuths_for_inclination(lat_site, coupled.inclination_rad) {
+        Ok((n, s)) => vec![n, s],
+        Err(_) => Vec::new(),
+    };
+    az_seeds.extend((0..12).map(|k| k as f64 * PI / 6.0));
+    let mut runs = Vec::new();
+    for sol in &planar.solutions {
+        let st = &sol.state;
+        let planar_x = system.coords_of(st.radius_m, st.speed_m_s, st.flight_path_angle_rad);
+        for az in &az_seeds {
+            let mut x0 = vec![*az];
+            x0.extend_from_slice(&planar_x);
+            if let Some(run) = crate::solve::numeric::trust_region(coupled, x0) {
+                runs.push(run);
+            }
+        }
+    }
+    runs
+}
+
+/// Why no azimuth reaches the inclination: usually an inclination below
+/// the burnout latitude (named), else the speed and downrange.
+fn no_azimuth(body: &Body, site: &SiteInputs, i_t: f64) -> Error {
+    let lat_site = geocentric_latitude(body, site.latitude_geodetic_rad);
+    let first = azimuths_for_inclination(lat_site, i_t).map_or(0.0, |(n, _)| n);
+    let (lat_b, _, _) = great_circle(lat_site, site.longitude_rad, first, site.downrange_rad);
+    if let Err(e) = azimuths_for_inclination(lat_b, i_t) {
+        return e;
+    }
+    Error::Infeasible(format!(
+        "no launch azimuth from latitude {} deg reaches inclination {} deg at this burnout speed and downrange",
+        g(site.latitude_geodetic_rad.to_degrees()),
+        g(i_t.to_degrees())
+    ))
+}
+
+/// The distinct roots among the accepted runs, each with its site state.
+/// The planar part of a coupled root is one of the planar answers (the
+/// in-plane targets do not depend on the azimuth): that state itself is
+/// taken, with its exact target conic, rather than the forward map of the
+/// rounded root (whose e ~ 1e-17 on a circular target can put burnout at
+/// apoapsis, true anomaly 180 deg, and flip the partials' apsides).
+fn distinct_roots(
+    coupled: &SiteSystem,
+    planar: &crate::solve::problem::Solved,
+    good: &[&crate::solve::numeric::Run],
+) -> Result<(Vec<crate::physics::state::BurnoutState>, Vec<SiteState>), Error> {
+    let (body, site) = (coupled.body, coupled.site);
     let mut states = Vec::new();
     let mut sites: Vec<SiteState> = Vec::new();
-    for run in &good {
+    for run in good {
         let (az, r, v, gamma) = coupled.state(&run.x);
         let az = az.rem_euclid(2.0 * PI);
         let dup = sites.iter().zip(&states).any(
@@ -181,12 +228,6 @@ pub fn solve_with_site(
         if dup {
             continue;
         }
-        // The planar part of a coupled root is one of the planar answers
-        // (the in-plane targets do not depend on the azimuth): take that
-        // state itself, with its exact target conic, rather than the forward
-        // map of the rounded root (whose e ~ 1e-17 on a circular target can
-        // put burnout at apoapsis, true anomaly 180 deg, and flip the
-        // partials' apsides).
         let planar_twin = planar.solutions.iter().map(|s| s.state).find(|p| {
             (p.radius_m - r).abs() <= 1e-9 * r
                 && (p.speed_m_s - v).abs() <= 1e-9 * v
@@ -206,17 +247,21 @@ pub fn solve_with_site(
         )?);
         states.push(st);
     }
-    // The planar answer already dropped roots that meet the surface before
-    // a targeted apsis; a coupled run polished away from one is held to the
-    // same rule.
-    let keep = crate::solve::feasibility::reaching_coast_events(body, &problem.targets, &states)?;
-    if keep.len() < states.len() {
-        states = keep.iter().map(|&i| states[i]).collect();
-        sites = keep.iter().map(|&i| sites[i]).collect();
-    }
-    let best = good[0];
-    let mut residuals =
-        crate::solve::problem::target_residuals(body.mu_m3_s2, &problem.targets, &states[0]);
+    Ok((states, sites))
+}
+
+/// The solved problem: states finished as any answer, each with its own
+/// site state, ascending first and by launch azimuth.
+fn assemble(
+    problem: &crate::solve::problem::Problem,
+    i_t: f64,
+    best: &crate::solve::numeric::Run,
+    states: Vec<crate::physics::state::BurnoutState>,
+    sites: Vec<SiteState>,
+) -> crate::solve::problem::Solved {
+    use crate::solve::problem::{finish, SolverReport};
+    let mu = problem.body.mu_m3_s2;
+    let mut residuals = crate::solve::problem::target_residuals(mu, &problem.targets, &states[0]);
     residuals.push((
         "inclination_deg".into(),
         (sites[0].inclination_rad - i_t).to_degrees(),
@@ -245,5 +290,5 @@ pub fn solve_with_site(
             .cmp(&(b.state.branch as u8))
             .then(key(a).total_cmp(&key(b)))
     });
-    Ok(solved)
+    solved
 }
