@@ -10,6 +10,9 @@
 //! throughout); END's unit is preferred, then START's, then STEP's; with no
 //! unit anywhere the flag's default unit applies. Ends may be in different
 //! units of the same kind (`100nmi..500km:10km`).
+//!
+//! (Why this file is long: about 190 of its lines are tests of the range
+//! syntax and its messages.)
 
 use crate::error::{g, Error};
 use crate::input::units::{parse, Kind};

@@ -11,6 +11,9 @@
 //! - flight-path angle atan2(v_r, v_t), never an `acos`;
 //! - true anomaly atan2(e sin nu, e cos nu) with e sin nu = v_r h / mu and,
 //!   for ellipses, e cos nu = (rp (ra - r) - ra (r - rp)) / (r (rp + ra)).
+//!
+//! (Why this file is long: about 240 of its lines are tests and property
+//! tests of the inversions.)
 
 use crate::error::{g, mention, positive, Error};
 use crate::physics::orbit::{check_fpa, Conic};

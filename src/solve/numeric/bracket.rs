@@ -2,6 +2,9 @@
 //! dense grids where the residual bends, every sign change refined with
 //! argmin's Brent root, every sampled extremum with Brent's minimiser, and
 //! acceptance scaled by the residual's own rounding (see the parent module).
+//!
+//! (Why this file is long: the line search, its three kinds of line and their
+//! grids share the acceptance rule; splitting them would scatter one method.)
 
 use super::*;
 
