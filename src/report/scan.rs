@@ -147,6 +147,51 @@ fn show(kind: Kind, si: f64, units: DisplayUnits) -> String {
     }
 }
 
+/// The fixed (not swept) targets of a scan, for a figure's title: " for
+/// 185 x 35786 km (periapsis x apoapsis altitude)" or " for ecc 0.1,
+/// period 90 min"; empty without fixed targets.
+fn fixed_targets(plan: &Plan, units: DisplayUnits) -> String {
+    let given = |key: &str| -> Option<f64> {
+        let text = plan.base.get(key)?;
+        let kind = crate::input::keys::kind_of(key)?;
+        crate::input::units::parse(&format!("--{key}"), text, kind)
+            .ok()
+            .map(|v| v.si)
+    };
+    let (lu, lf) = units.length();
+    let mut parts = Vec::new();
+    let mut done: Vec<&str> = Vec::new();
+    if let (Some(p), Some(a)) = (given("periapsis-alt"), given("apoapsis-alt")) {
+        parts.push(format!(
+            "{} x {} {lu} (periapsis x apoapsis altitude)",
+            show_number(p / lf),
+            show_number(a / lf)
+        ));
+        done.extend(["periapsis-alt", "apoapsis-alt"]);
+    }
+    for (k, _, _) in crate::input::keys::target_keys() {
+        if done.contains(&k.key) {
+            continue;
+        }
+        if let (Some(si), Some(kind)) = (given(k.key), k.kind) {
+            parts.push(format!("{} {}", k.human, show(kind, si, units)));
+        }
+    }
+    if let Some(i) = given("inclination") {
+        parts.push(format!("inclination {} deg", show_number(i.to_degrees())));
+    }
+    if parts.is_empty() {
+        String::new()
+    } else {
+        format!(" for {}", parts.join(", "))
+    }
+}
+
+/// A number to seven significant digits, trailing zeros dropped.
+fn show_number(v: f64) -> String {
+    show(Kind::Ratio, v, DisplayUnits::Si)
+}
+
 /// Whether the flight-path angle is a swept input (its result column would
 /// repeat the axis; a zenith axis keeps it, as the angle differs).
 fn fpa_swept(plan: &Plan) -> bool {
@@ -696,10 +741,12 @@ impl ScanWriter {
         })
     }
 
-    /// The figure of a scan run with [`crate::scan::ScanOptions::samples`]: one line per
-    /// (second-axis value, branch, solution), the unsolved stretches and the
-    /// refined minimum.
+    /// The figure of a scan run with [`crate::scan::ScanOptions::samples`]:
+    /// one line per (second-axis value, branch, solution), each line's gaps,
+    /// the stretches where no line solves, and the refined minimum when it
+    /// is interior.
     pub fn plot_data(&self, plan: &Plan, report: &ScanReport) -> Option<PlotData> {
+        use crate::report::plot::{DESCENDING_DASH, FURTHER_DASH, SERIES_COLORS};
         let Samples { pick, samples } = report.samples.as_ref()?;
         let mut samples = samples.clone();
         let a0 = &plan.axes[0];
@@ -708,67 +755,12 @@ impl ScanWriter {
         let (su, sf) = self.units.speed();
         let x_of = |i0: usize| display(k0, a0.grid.si(i0), self.units).0;
         samples.sort_by_key(|s| (s.slot, s.branch, s.ordinal, s.i0));
-        // Lines: one per (second-axis value, branch, ordinal).
-        let mut series: Vec<PlotSeries> = Vec::new();
-        let mut failed_x: Vec<usize> = Vec::new();
-        let mut all_x: Vec<usize> = Vec::new();
-        let mut key: Option<(usize, u8, u8)> = None;
-        let mut last_i0: Option<usize> = None;
-        // Which sampled grid indices exist at all (for gaps and shading).
-        for s in &samples {
-            all_x.push(s.i0);
-            if s.value.is_none() {
-                failed_x.push(s.i0);
-            }
-        }
-        all_x.sort_unstable();
-        all_x.dedup();
-        failed_x.sort_unstable();
-        failed_x.dedup();
         let sampled: Vec<usize> = (0..pick.n0)
             .filter(|i| i % pick.stride0 == 0 || i + 1 == pick.n0)
             .collect();
-        for s in samples.iter().filter(|s| s.value.is_some()) {
-            let k = (s.slot, s.branch, s.ordinal);
-            if key != Some(k) {
-                let branch = branch_names(s.branch).join("");
-                let mut label = branch.clone();
-                if s.ordinal > 0 {
-                    label = format!("{branch} #{}", s.ordinal + 1);
-                }
-                if let Some(a1) = plan.axes.get(1) {
-                    let i1 = pick.slots[s.slot];
-                    label = format!(
-                        "{} {}, {label}",
-                        a1.key,
-                        show(a1.grid.kind(), a1.grid.si(i1), self.units)
-                    );
-                }
-                series.push(PlotSeries {
-                    label,
-                    segments: vec![Vec::new()],
-                });
-                key = Some(k);
-                last_i0 = None;
-            }
-            let line = series.last_mut().expect("a series was just pushed");
-            // A skipped sampled point (no solution there) breaks the line.
-            if let Some(prev) = last_i0 {
-                let p = sampled.partition_point(|&i| i <= prev);
-                if sampled.get(p).is_some_and(|&next| next < s.i0) {
-                    line.segments.push(Vec::new());
-                }
-            }
-            let (v, f) = s.value.unwrap_or((f64::NAN, f64::NAN));
-            line.segments
-                .last_mut()
-                .expect("segments is never empty")
-                .push((x_of(s.i0), v / sf, f));
-            last_i0 = Some(s.i0);
-        }
-        // Shade around failed sampled points, half-way to their neighbours.
-        let mut infeasible: Vec<(f64, f64)> = Vec::new();
-        for &i in &failed_x {
+        // The x-interval a sampled point stands for: half-way to its
+        // sampled neighbours.
+        let cell = |i: usize| -> (f64, f64) {
             let p = sampled.partition_point(|&j| j < i);
             let x = x_of(i);
             let left = if p > 0 {
@@ -776,44 +768,146 @@ impl ScanWriter {
             } else {
                 x
             };
-            let right = match sampled.get(p + 1) {
-                Some(&j) => 0.5 * (x + x_of(j)),
-                None => x,
-            };
-            let (l, r) = if left <= right {
-                (left, right)
-            } else {
-                (right, left)
-            };
-            match infeasible.last_mut() {
-                Some(last) if (last.1 - l).abs() <= 1e-12 * (1.0 + l.abs()) || last.1 >= l => {
-                    last.1 = last.1.max(r)
+            let right = sampled.get(p + 1).map_or(x, |&j| 0.5 * (x + x_of(j)));
+            (left.min(right), left.max(right))
+        };
+        let merge = |cells: Vec<(f64, f64)>| -> Vec<(f64, f64)> {
+            let mut out: Vec<(f64, f64)> = Vec::new();
+            for (l, r) in cells {
+                match out.last_mut() {
+                    Some(last) if last.1 >= l - 1e-12 * (1.0 + l.abs()) => last.1 = last.1.max(r),
+                    _ => out.push((l, r)),
                 }
-                _ => infeasible.push((l, r)),
             }
-        }
-        let minimum = report.minimum.as_ref().map(|m| {
-            let x = display(k0, m.at_si[0], self.units).0;
-            let label = format!(
-                "minimum {:.4} {su} at {}",
-                m.speed_m_s / sf,
-                show_fine(&a0.grid, m.at_si[0], self.units)
+            out
+        };
+        let keys: Vec<(usize, u8, u8)> = {
+            let mut k: Vec<(usize, u8, u8)> = samples
+                .iter()
+                .filter(|s| s.value.is_some())
+                .map(|s| (s.slot, s.branch, s.ordinal))
+                .collect();
+            k.dedup();
+            k
+        };
+        let two_axes = plan.axes.len() > 1;
+        let mut series: Vec<PlotSeries> = Vec::new();
+        for &(slot, branch, ordinal) in &keys {
+            let mine: Vec<&crate::scan::Sample> = samples
+                .iter()
+                .filter(|s| (s.slot, s.branch, s.ordinal) == (slot, branch, ordinal))
+                .collect();
+            let name = branch_names(branch).join("");
+            let mut label = if ordinal == 0 {
+                name.clone()
+            } else {
+                // Solutions on one branch are ordered by speed.
+                format!("{name}, solution {} (higher speed)", ordinal + 1)
+            };
+            if let Some(a1) = plan.axes.get(1) {
+                let i1 = pick.slots[slot];
+                label = format!(
+                    "{} {}, {label}",
+                    a1.key,
+                    show(a1.grid.kind(), a1.grid.si(i1), self.units)
+                );
+            }
+            let color = if two_axes {
+                SERIES_COLORS[slot % SERIES_COLORS.len()]
+            } else {
+                SERIES_COLORS[(2 * ordinal as usize + (branch as usize).saturating_sub(1))
+                    % SERIES_COLORS.len()]
+            };
+            let dash = match (branch, ordinal) {
+                (_, o) if o > 0 => Some(FURTHER_DASH),
+                (2, _) => Some(DESCENDING_DASH),
+                _ => None,
+            };
+            let mut segments: Vec<Vec<(f64, f64, f64, bool)>> = vec![Vec::new()];
+            let mut last_i0: Option<usize> = None;
+            for s in &mine {
+                if let Some(prev) = last_i0 {
+                    let p = sampled.partition_point(|&i| i <= prev);
+                    if sampled.get(p).is_some_and(|&next| next < s.i0) {
+                        segments.push(Vec::new());
+                    }
+                }
+                let (v, f) = s.value.unwrap_or((f64::NAN, f64::NAN));
+                segments.last_mut().expect("segments is never empty").push((
+                    x_of(s.i0),
+                    v / sf,
+                    f,
+                    s.suborbital,
+                ));
+                last_i0 = Some(s.i0);
+            }
+            // This line's gaps: sampled points of its slot where it has none.
+            let have: Vec<usize> = mine.iter().map(|s| s.i0).collect();
+            let gaps = merge(
+                sampled
+                    .iter()
+                    .filter(|i| have.binary_search(i).is_err())
+                    .map(|&i| cell(i))
+                    .collect(),
             );
-            (x, m.speed_m_s / sf, label)
-        });
-        let note = plan.axes.get(1).and_then(|a1| {
-            (pick.slots.len() < a1.grid.len()).then(|| {
-                format!(
+            series.push(PlotSeries {
+                label,
+                color,
+                dash,
+                segments,
+                gaps,
+            });
+        }
+        // Where no line solves: sampled points whose every slot failed.
+        let mut failed: Vec<usize> = sampled
+            .iter()
+            .copied()
+            .filter(|&i| {
+                pick.slots.iter().enumerate().all(|(slot, _)| {
+                    !samples
+                        .iter()
+                        .any(|s| s.i0 == i && s.slot == slot && s.value.is_some())
+                })
+            })
+            .collect();
+        failed.dedup();
+        let infeasible = merge(failed.into_iter().map(cell).collect());
+        let mut notes = Vec::new();
+        if let Some(a1) = plan.axes.get(1) {
+            if pick.slots.len() < a1.grid.len() {
+                notes.push(format!(
                     "{} of {} values of {} shown",
                     pick.slots.len(),
                     a1.grid.len(),
                     a1.flag
-                )
-            })
+                ));
+            }
+        }
+        let minimum = report.minimum.as_ref().and_then(|m| {
+            let where_ = show_fine(&a0.grid, m.at_si[0], self.units);
+            let interior = !m.at_end.first().copied().unwrap_or(false)
+                && m.unsolved_neighbour_si.is_none()
+                && m.suborbital_neighbour_si.is_none();
+            if interior {
+                Some((
+                    display(k0, m.at_si[0], self.units).0,
+                    m.speed_m_s / sf,
+                    format!("minimum {:.4} {su} at {where_}", m.speed_m_s / sf),
+                ))
+            } else {
+                notes.push(format!(
+                    "lowest speed {:.4} {su} at {where_}: at the edge of the range or of the solved region, not a refined interior minimum (not marked)",
+                    m.speed_m_s / sf
+                ));
+                None
+            }
         });
         let what = human_name(&a0.key);
         Some(PlotData {
-            title: format!("Required burnout speed and flight-path angle vs {what}"),
+            title: format!(
+                "Required burnout speed and flight-path angle vs {what}{}",
+                fixed_targets(plan, self.units)
+            ),
             x_label: if xu.is_empty() {
                 what
             } else {
@@ -824,7 +918,7 @@ impl ScanWriter {
             series,
             infeasible,
             minimum,
-            note,
+            notes,
         })
     }
 }

@@ -199,6 +199,8 @@ pub struct Sample {
     pub ordinal: u8,
     /// Speed (m/s) and flight-path angle (deg), `None` where nothing solved.
     pub value: Option<(f64, f64)>,
+    /// Whether that solution is suborbital (its path meets the surface).
+    pub suborbital: bool,
 }
 
 struct ChunkOut {
@@ -323,6 +325,12 @@ impl Plan {
                                 branch: bit,
                                 ordinal: *o,
                                 value: Some((st.speed_m_s, st.flight_path_angle_rad.to_degrees())),
+                                suborbital: view.warnings.iter().any(|w| {
+                                    matches!(
+                                        w,
+                                        crate::solve::feasibility::Warning::Suborbital { .. }
+                                    )
+                                }),
                             });
                             *o = o.saturating_add(1);
                         }
@@ -364,6 +372,7 @@ impl Plan {
                     branch: 0,
                     ordinal: 0,
                     value: None,
+                    suborbital: false,
                 });
             }
         }

@@ -12,6 +12,7 @@ mod batch;
 mod budget;
 mod cases;
 mod edges;
+mod figures;
 mod hardening;
 mod scan;
 mod site;

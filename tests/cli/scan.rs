@@ -4,13 +4,13 @@
 
 use crate::{run, solve_json, Run};
 use approx::assert_relative_eq;
-use burnout::report::plot::{hex, INFEASIBLE_FILL, MINIMUM_FILL, SERIES_COLORS};
+use burnout::report::plot::{hex, SERIES_COLORS};
 use serde_json::Value;
 use std::path::Path;
 use std::process::{Command, Stdio};
 
 /// Runs `burnout ARGS...` in `dir` (for tests that look at files).
-fn run_in(dir: &Path, args: &[&str]) -> Run {
+pub fn run_in(dir: &Path, args: &[&str]) -> Run {
     let out = Command::new(env!("CARGO_BIN_EXE_burnout"))
         .args(args)
         .current_dir(dir)
@@ -505,8 +505,13 @@ fn texts<'a>(doc: &'a roxmltree::Document) -> Vec<&'a str> {
         .collect()
 }
 
+/// Issue 14, figures: one line per branch in each panel (and one legend
+/// entry), descending dashed so coinciding branches stay apart, grey where
+/// no line solves (burnout below the 200 km periapsis), the title naming
+/// the fixed targets, and a minimum at the end of the range noted, not
+/// marked.
 #[test]
-fn figure_has_a_line_per_branch_shading_and_the_minimum() {
+fn figure_has_a_line_per_branch_shading_and_a_noted_end_minimum() {
     let dir = tempfile::tempdir().unwrap();
     let svg = svg_of(
         dir.path(),
@@ -526,10 +531,18 @@ fn figure_has_a_line_per_branch_shading_and_the_minimum() {
     );
     let doc = roxmltree::Document::parse(&svg).expect("valid SVG (XML)");
     assert_eq!(doc.root_element().tag_name().name(), "svg");
-    // One line per branch in each panel, plus its legend entry in each.
-    assert_eq!(stroke_count(&doc, SERIES_COLORS[0]), 4);
-    assert_eq!(stroke_count(&doc, SERIES_COLORS[1]), 4);
+    // One line per branch in each panel, plus its legend entry.
+    assert_eq!(stroke_count(&doc, SERIES_COLORS[0]), 3);
+    assert_eq!(stroke_count(&doc, SERIES_COLORS[1]), 3);
     assert_eq!(stroke_count(&doc, SERIES_COLORS[2]), 0);
+    let dashed = doc
+        .descendants()
+        .filter(|n| {
+            n.has_tag_name("polyline")
+                && n.attribute("stroke") == Some(hex(SERIES_COLORS[1]).as_str())
+        })
+        .all(|n| n.attribute("stroke-dasharray").is_some());
+    assert!(dashed, "descending lines are dashed");
     let t = texts(&doc);
     for want in [
         "burnout altitude (km)",
@@ -537,29 +550,27 @@ fn figure_has_a_line_per_branch_shading_and_the_minimum() {
         "flight-path angle (deg)",
         "ascending",
         "descending",
-        "no solution",
+        "no line has a solution",
+        "Required burnout speed and flight-path angle vs burnout altitude for 200 x 35786 km (periapsis x apoapsis altitude)",
     ] {
         assert!(t.contains(&want), "missing {want}: {t:?}");
     }
     assert!(
-        t.iter()
-            .any(|s| s.starts_with("minimum ") && s.ends_with("at 600 km")),
+        t.iter().any(|s| s.starts_with("lowest speed ")
+            && s.contains("at 600 km")
+            && s.contains("not marked")),
         "{t:?}"
     );
     let shaded = doc
         .descendants()
-        .filter(|n| {
-            n.has_tag_name("rect") && n.attribute("fill") == Some(hex(INFEASIBLE_FILL).as_str())
-        })
+        .filter(|n| n.has_tag_name("rect") && n.attribute("class") == Some("no-solution"))
         .count();
-    assert!(shaded >= 2, "shading in both panels expected");
+    assert_eq!(shaded, 2, "shading in both panels expected");
     let marker = doc
         .descendants()
-        .filter(|n| {
-            n.has_tag_name("circle") && n.attribute("fill") == Some(hex(MINIMUM_FILL).as_str())
-        })
+        .filter(|n| n.has_tag_name("circle") && n.attribute("class") == Some("minimum"))
         .count();
-    assert!(marker >= 1);
+    assert_eq!(marker, 0, "an end-of-range minimum is not marked");
 }
 
 #[test]
@@ -593,7 +604,7 @@ fn figure_of_a_two_range_scan_has_a_line_per_second_axis_value() {
     .enumerate()
     {
         assert!(texts(&doc).contains(label), "missing legend {label}");
-        assert_eq!(stroke_count(&doc, SERIES_COLORS[i]), 4, "{label}");
+        assert_eq!(stroke_count(&doc, SERIES_COLORS[i]), 3, "{label}");
     }
 }
 
