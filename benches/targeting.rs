@@ -70,6 +70,7 @@ fn scan_million(c: &mut Criterion) {
         sensitivities: false,
         branch: opts.branch,
         flight: false,
+        title: None,
     };
     let mut out: Vec<u8> = Vec::with_capacity(400 << 20);
     let mut group = c.benchmark_group("scan");

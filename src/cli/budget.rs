@@ -37,7 +37,8 @@ pub enum BranchArg {
 pub fn run(args: Args) -> Result<i32, Error> {
     let flags: Inputs = args.budget.flags.clone();
     super::reject_empty(&flags)?;
-    let inputs = overlay(args.problem.inputs()?, &flags);
+    let (case_inputs, title) = args.problem.inputs_and_title()?;
+    let inputs = overlay(case_inputs, &flags);
     let (errors, tolerances) = budget_from_inputs(&inputs)?;
     check_budget_magnitudes(&inputs)?;
     if errors.is_none() && tolerances.is_none() {
@@ -87,7 +88,12 @@ pub fn run(args: Args) -> Result<i32, Error> {
     let io = |e: std::io::Error| Error::Io(format!("cannot write output: {e}"));
     match args.format {
         Format::Json => write_json(&mut buf, &reports).map_err(io)?,
-        Format::Table => write_table(&mut buf, &reports).map_err(io)?,
+        Format::Table => {
+            if let Some(title) = title.filter(|t| !t.trim().is_empty()) {
+                buf.extend_from_slice(format!("case: {}\n\n", title.trim()).as_bytes());
+            }
+            write_table(&mut buf, &reports).map_err(io)?
+        }
         Format::Csv => {
             return Err(Error::Usage(
                 "--format csv is not available for budget: use table or json".into(),

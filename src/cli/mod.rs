@@ -182,12 +182,8 @@ impl ProblemArgs {
         self.flags.clone()
     }
 
-    /// The case file's inputs (if any) with the flags laid over them.
-    pub fn inputs(&self) -> Result<Inputs, Error> {
-        self.inputs_and_title().map(|(inputs, _)| inputs)
-    }
-
-    /// As [`ProblemArgs::inputs`], with the case file's title if it has one.
+    /// The case file's inputs (if any) with the flags laid over them, and the
+    /// case's title if it has one.
     pub fn inputs_and_title(&self) -> Result<(Inputs, Option<String>), Error> {
         let flags = self.flag_inputs();
         reject_empty(&flags)?;

@@ -89,7 +89,7 @@ fn format_for(format: Option<Format>, out: Option<&Path>) -> ScanFormat {
 
 /// Runs the scan; returns the exit code.
 pub fn run(args: Args) -> Result<i32, Error> {
-    let inputs = args.problem.inputs()?;
+    let (inputs, title) = args.problem.inputs_and_title()?;
     let plan = Plan::new(&inputs)?;
     if args.plot.is_some() && plan.axes().len() > 2 {
         let flags: Vec<&str> = plan.axes().iter().map(|a| a.flag.as_str()).collect();
@@ -159,6 +159,7 @@ pub fn run(args: Args) -> Result<i32, Error> {
         units: args.units.into(),
         sensitivities: args.sensitivities,
         flight: args.flight,
+        title,
         branch: opts.branch,
     };
     let mut progress = Progress::new(plan.len() as u64, "points");

@@ -20,7 +20,7 @@ use std::io::Write;
 
 /// How a scan is written: format, units of the table, sensitivity columns,
 /// and the branch choice the header names.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct ScanWriter {
     /// Output format.
     pub format: ScanFormat,
@@ -33,6 +33,8 @@ pub struct ScanWriter {
     /// Add the flight-plan columns ([`crate::columns::FLIGHT_COLUMNS`];
     /// CSV, JSON).
     pub flight: bool,
+    /// The case file's title, heading the table.
+    pub title: Option<String>,
 }
 
 impl ScanSink for ScanWriter {
@@ -295,6 +297,10 @@ impl ScanWriter {
                     .cloned()
                     .or_else(|| plan.template.as_ref().map(|p| p.body.name.clone()))
                     .unwrap_or_else(|| "earth".into());
+                if let Some(title) = self.title.as_deref().filter(|t| !t.trim().is_empty()) {
+                    writeln!(out, "case: {}", title.trim())?;
+                    writeln!(out)?;
+                }
                 writeln!(out, "scan over {body}: {}", ranges.join(", "))?;
                 writeln!(out, "branches: {}", self.branch.name())?;
                 writeln!(out)?;

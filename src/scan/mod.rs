@@ -577,6 +577,7 @@ mod tests {
             sensitivities: opts.sensitivities,
             branch: opts.branch,
             flight: false,
+            title: None,
         };
         let report = plan.run(&engine, &writer, &mut out, &mut |_| {}).unwrap();
         (String::from_utf8(out).unwrap(), report)

@@ -499,3 +499,15 @@ fn flight_columns_in_scan_and_batch_match_solve() {
         num(&solutions(&doc)[0]["flight"], "/impact/time_s")
     );
 }
+
+/// Issue 14: the case title heads the scan and budget tables too.
+#[test]
+fn case_title_heads_the_budget_table() {
+    let r = run(&["budget", "--case", &crate::case_path("gto-budget.toml")]);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    assert!(
+        r.stdout.starts_with("case: Corvid-H upper stage"),
+        "{}",
+        r.stdout
+    );
+}
