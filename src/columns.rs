@@ -37,6 +37,26 @@ pub const SITE_COLUMNS: [&str; 9] = [
     "plane",
 ];
 
+/// The numeric result values of a solution, in the order of
+/// `RESULT_COLUMNS[3..]` (speed m/s, flight-path angle deg, true anomaly
+/// deg, periapsis, apoapsis, sma m, ecc, period s, C3 m2/s2, burnout radius
+/// m); `None` where the orbit lacks the quantity.
+pub fn result_values(mu_m3_s2: f64, st: &crate::physics::state::BurnoutState) -> [Option<f64>; 10] {
+    let c = &st.conic;
+    [
+        Some(st.speed_m_s),
+        Some(st.flight_path_angle_rad.to_degrees()),
+        Some(st.true_anomaly_rad.to_degrees()),
+        Some(c.periapsis_radius_m()),
+        c.apoapsis_radius_m(),
+        c.sma_m(),
+        Some(c.ecc()),
+        c.period_s(mu_m3_s2),
+        Some(c.c3_m2_s2(mu_m3_s2)),
+        Some(st.radius_m),
+    ]
+}
+
 /// Flight-plan columns (`--flight`), after the site columns: times to the
 /// apsides, apsis speeds, v-infinity and the asymptote, the impact, and the
 /// time above `--above-alt` (see [`crate::solve::flight`]); blank where a

@@ -173,7 +173,6 @@ impl<'a> Record<'a> {
         memo: &mut FloatMemo,
     ) -> &mut Self {
         let st = s.state;
-        let c = &st.conic;
         self.text("ok");
         if s.warnings.is_empty() {
             self.sep();
@@ -188,18 +187,7 @@ impl<'a> Record<'a> {
             self.text(&super::csv::safe_message(&joined));
         }
         self.text(st.branch.name());
-        let numbers = [
-            Some(st.speed_m_s),
-            Some(st.flight_path_angle_rad.to_degrees()),
-            Some(st.true_anomaly_rad.to_degrees()),
-            Some(c.periapsis_radius_m()),
-            c.apoapsis_radius_m(),
-            c.sma_m(),
-            Some(c.ecc()),
-            c.period_s(mu_m3_s2),
-            Some(c.c3_m2_s2(mu_m3_s2)),
-            Some(st.radius_m),
-        ];
+        let numbers = crate::columns::result_values(mu_m3_s2, st);
         for (slot, x) in numbers.into_iter().enumerate() {
             self.sep();
             if let Some(x) = x {

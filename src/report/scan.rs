@@ -386,27 +386,14 @@ impl ScanWriter {
                 rec.end();
             }
             ScanFormat::Json => {
-                let c = &st.conic;
                 buf.extend_from_slice(b"\"status\":\"ok\",\"message\":");
                 let msg: Vec<String> = s.warnings.iter().map(|w| w.to_string()).collect();
                 json_str(buf, &msg.join("; "));
                 buf.extend_from_slice(b",\"branch\":");
                 json_str(buf, st.branch.name());
-                let nums: [(&str, Option<f64>); 10] = [
-                    ("speed_m_s", Some(st.speed_m_s)),
-                    (
-                        "flight_path_angle_deg",
-                        Some(st.flight_path_angle_rad.to_degrees()),
-                    ),
-                    ("true_anomaly_deg", Some(st.true_anomaly_rad.to_degrees())),
-                    ("periapsis_radius_m", Some(c.periapsis_radius_m())),
-                    ("apoapsis_radius_m", c.apoapsis_radius_m()),
-                    ("sma_m", c.sma_m()),
-                    ("ecc", Some(c.ecc())),
-                    ("period_s", c.period_s(mu)),
-                    ("c3_m2_s2", Some(c.c3_m2_s2(mu))),
-                    ("burnout_radius_m", Some(st.radius_m)),
-                ];
+                let nums = RESULT_COLUMNS[3..]
+                    .iter()
+                    .zip(crate::columns::result_values(mu, st));
                 for (k, v) in nums {
                     buf.push(b',');
                     json_str(buf, k);
