@@ -357,6 +357,19 @@ pub fn problem_from_inputs(inputs: &Inputs) -> Result<Problem, Error> {
     let min_periapsis_alt_m = num(inputs, "min-periapsis-alt", Kind::Length)?;
     let site = site_from_inputs(inputs, &body)?;
     let above_alt_m = num(inputs, "above-alt", Kind::Length)?;
+    if let Some(a) = above_alt_m.filter(|a| *a < 0.0) {
+        return Err(about_flag(
+            inputs,
+            "above-alt",
+            Kind::Length,
+            Error::OutOfRange {
+                quantity: "timing altitude",
+                value: a / 1e3,
+                unit: "km",
+                expected: "0 or more (an altitude above the surface)".into(),
+            },
+        ));
+    }
     Ok(Problem {
         body,
         burnout_radius_m,

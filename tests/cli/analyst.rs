@@ -511,3 +511,26 @@ fn case_title_heads_the_budget_table() {
         r.stdout
     );
 }
+
+/// A timing altitude below the surface is refused, naming the flag.
+#[test]
+fn negative_timing_altitude_is_a_usage_error() {
+    let r = run(&[
+        "solve",
+        "--burnout-alt",
+        "200",
+        "--periapsis-alt",
+        "200",
+        "--apoapsis-alt",
+        "400",
+        "--above-alt=-5",
+    ]);
+    assert_eq!(r.code, Some(2));
+    let line = r.stderr.trim_end();
+    assert!(
+        line.starts_with("error: invalid length '-5' for --above-alt")
+            && line.contains("0 or more"),
+        "{line}"
+    );
+    assert_eq!(line.lines().count(), 1);
+}
