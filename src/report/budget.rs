@@ -27,24 +27,6 @@ fn tolerance_of(tol: Option<&Tolerances>, quantity: &str) -> Option<f64> {
     tol.and_then(|t| t.rows[i])
 }
 
-/// Five significant digits for people (fixed-point where readable).
-fn sig5(x: f64) -> String {
-    if x == 0.0 || !x.is_finite() {
-        return if x.is_finite() {
-            "0".into()
-        } else {
-            format!("{x}")
-        };
-    }
-    let a = x.abs();
-    if (1e-3..1e7).contains(&a) {
-        let decimals = (4 - a.log10().floor() as i32).max(0) as usize;
-        format!("{x:.decimals$}")
-    } else {
-        format!("{x:.4e}")
-    }
-}
-
 #[derive(Serialize)]
 struct RowJson {
     one_sigma: f64,
@@ -226,9 +208,9 @@ fn component_value(k: usize, x: f64) -> String {
         return "unlimited".into();
     }
     match k {
-        0 => format!("{} m/s", sig5(x)),
-        1 => format!("{} deg", sig5(x.to_degrees())),
-        _ => format!("{} m", sig5(x)),
+        0 => format!("{} m/s", super::sig5(x, 1e7)),
+        1 => format!("{} deg", super::sig5(x.to_degrees(), 1e7)),
+        _ => format!("{} m", super::sig5(x, 1e7)),
     }
 }
 
@@ -267,10 +249,10 @@ pub fn write_table(out: &mut impl Write, reports: &[BudgetReport]) -> std::io::R
                     out,
                     "  {:<16} {:>12} {:>12} {:>12} {:>12}   {} ({:.0}% of the total variance alone)",
                     row_label(row.quantity, "km"),
-                    sig5(row.one_sigma * k),
-                    sig5(row.three_sigma * k),
-                    sig5(row.exact_one_sigma * k),
-                    sig5(row.exact_mean_shift * k),
+                    super::sig5(row.one_sigma * k, 1e7),
+                    super::sig5(row.three_sigma * k, 1e7),
+                    super::sig5(row.exact_one_sigma * k, 1e7),
+                    super::sig5(row.exact_mean_shift * k, 1e7),
                     component_label(row.dominant),
                     100.0 * row.dominant_share
                 )?;
@@ -286,8 +268,8 @@ pub fn write_table(out: &mut impl Write, reports: &[BudgetReport]) -> std::io::R
                     out,
                     "  {}: the linear budget misstates it (the map bends within the dispersion, e.g. a near-circular orbit): exact 1-sigma {}{unit}, mean shift {}{unit}",
                     row_label(row.quantity, "km"),
-                    sig5(row.exact_one_sigma * k),
-                    sig5(row.exact_mean_shift * k)
+                    super::sig5(row.exact_one_sigma * k, 1e7),
+                    super::sig5(row.exact_mean_shift * k, 1e7)
                 )?;
             }
             let checked: Vec<_> = rows
@@ -307,8 +289,8 @@ pub fn write_table(out: &mut impl Write, reports: &[BudgetReport]) -> std::io::R
                         out,
                         "  {:<16} reach {:>12} vs tolerance +/-{:<12} {}",
                         row_label(row.quantity, "km"),
-                        sig5(reach * k),
-                        sig5(t * k),
+                        super::sig5(reach * k, 1e7),
+                        super::sig5(t * k, 1e7),
                         if reach <= t {
                             format!("fits ({:.0}% of the tolerance)", 100.0 * reach / t)
                         } else {
@@ -359,12 +341,12 @@ pub fn write_table(out: &mut impl Write, reports: &[BudgetReport]) -> std::io::R
                     out,
                     "  axis half-length {:>12} (exact limit {:>12}) along (speed m/s {:+.4}, fpa rad {:+.4}, radius m {:+.4})",
                     if ax.half_length.is_finite() {
-                        sig5(ax.half_length)
+                        super::sig5(ax.half_length, 1e7)
                     } else {
                         "unbounded".into()
                     },
                     if ax.exact_limit.is_finite() {
-                        sig5(ax.exact_limit)
+                        super::sig5(ax.exact_limit, 1e7)
                     } else {
                         "none found".into()
                     },

@@ -45,24 +45,6 @@ impl DisplayUnits {
     }
 }
 
-/// Five significant digits, fixed-point where readable, never "-0".
-fn sig(x: f64) -> String {
-    if x == 0.0 || !x.is_finite() {
-        return if x.is_finite() {
-            "0".into()
-        } else {
-            format!("{x}")
-        };
-    }
-    let a = x.abs();
-    if (1e-3..1e6).contains(&a) {
-        let decimals = (4 - a.log10().floor() as i32).max(0) as usize;
-        format!("{x:.decimals$}")
-    } else {
-        format!("{x:.4e}")
-    }
-}
-
 fn fixed(x: f64, decimals: usize) -> String {
     format!("{x:.decimals$}")
 }
@@ -91,15 +73,7 @@ pub fn write(out: &mut impl Write, solved: &Solved, units: DisplayUnits) -> std:
     write_coefficients(out, &c)?;
     // The same warnings as the machine output, worded for people: lengths
     // in the table's unit to about the metre.
-    let mut warnings: Vec<String> = Vec::new();
-    for s in &solved.solutions {
-        for w in &s.warnings {
-            let text = w.describe(units.length());
-            if !warnings.contains(&text) {
-                warnings.push(text);
-            }
-        }
-    }
+    let warnings = solved.warning_texts(|w| w.describe(units.length()));
     if !warnings.is_empty() {
         writeln!(out)?;
         writeln!(out, "warnings:")?;
@@ -337,7 +311,7 @@ fn write_orbits(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
         };
         let energy = |x: f64| match c_units {
             DisplayUnits::Si => fixed(x / e_scale, 6),
-            DisplayUnits::Us => sig(x / e_scale),
+            DisplayUnits::Us => super::sig5(x / e_scale, 1e6),
         };
         writeln!(
             out,
@@ -354,7 +328,7 @@ fn write_orbits(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
             "  angular momentum {} {h_unit}",
             match c_units {
                 DisplayUnits::Si => fixed(c.angular_momentum_m2_s(mu) / h_scale, 3),
-                DisplayUnits::Us => sig(c.angular_momentum_m2_s(mu) / h_scale),
+                DisplayUnits::Us => super::sig5(c.angular_momentum_m2_s(mu) / h_scale, 1e6),
             }
         )?;
     }
@@ -496,7 +470,7 @@ fn write_coefficients(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
             let floor = 8.0 * f64::EPSILON * nominal[i].map_or(0.0, f64::abs);
             let cell = |d: Option<f64>| match d {
                 Some(d) if d.abs() <= floor => "0".to_string(),
-                Some(d) => sig(d * scale),
+                Some(d) => super::sig5(d * scale, 1e6),
                 None => "-".to_string(),
             };
             writeln!(
@@ -513,7 +487,7 @@ fn write_coefficients(out: &mut impl Write, c: &Ctx) -> std::io::Result<()> {
             writeln!(
                 out,
                 "  near-circular orbit (ecc {}): periapsis and apoapsis move with the size of a flight-path angle error, not its sign; their partials in fpa are not a linear coefficient here, and a linear budget understates them",
-                sig(st.conic.ecc())
+                super::sig5(st.conic.ecc(), 1e6)
             )?;
         }
     }

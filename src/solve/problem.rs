@@ -105,10 +105,16 @@ impl Solved {
 
     /// All warnings of all solutions, in order, without repeats.
     pub fn warnings(&self) -> Vec<String> {
+        self.warning_texts(|w| w.to_string())
+    }
+
+    /// Every solution's warnings worded by `text`, each distinct text once,
+    /// in solution order.
+    pub fn warning_texts(&self, text: impl Fn(&Warning) -> String) -> Vec<String> {
         let mut out: Vec<String> = Vec::new();
         for s in &self.solutions {
             for w in &s.warnings {
-                let t = w.to_string();
+                let t = text(w);
                 if !out.contains(&t) {
                     out.push(t);
                 }
